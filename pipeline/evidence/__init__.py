@@ -1,0 +1,1 @@
+"""Results and their evidence: what the learner decided and why, and the files it writes."""

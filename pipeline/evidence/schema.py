@@ -1,0 +1,139 @@
+"""The ``result.json`` format (``orienteer.result/1``) as dataclasses.
+
+Written by ``learn`` and ``identify``; read by ``plan``, ``compare`` and ``sweep``.
+The field names are the outside contract (CONTRACT.md); add fields, never rename them.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Any
+
+from pipeline.errors import InputError
+from pipeline.graphs.pdag import PDAG
+
+__all__ = ["FORMAT", "EdgeRecord", "RegimeRecord", "ResultRecord"]
+
+FORMAT = "orienteer.result/1"
+RULES = ("intervention", "collider", "meek-1", "meek-2", "meek-3", "meek-4", "none")
+
+
+@dataclass
+class EdgeRecord:
+    """One edge of the result. For an undirected edge `source` comes first in ``nodes``."""
+
+    source: str
+    target: str
+    orientation: str  # "directed" | "undirected"
+    rule: str = "none"
+    via: list[str] = field(default_factory=list)
+    p_adjacency: float | None = None
+    p_orientation: float | None = None
+    bootstrap_adjacency: float | None = None
+    bootstrap_orientation: float | None = None
+    conflict: bool = False
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class RegimeRecord:
+    name: str
+    targets: list[str]
+    known: bool = True
+    samples: int = 0
+    reference: bool = False
+    detected_targets: list[str] = field(default_factory=list)
+
+
+@dataclass
+class ResultRecord:
+    """The whole ``result.json``."""
+
+    nodes: list[str]
+    regimes: list[RegimeRecord]
+    edges: list[EdgeRecord]
+    class_size: int
+    settings: dict[str, Any] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+    valid: bool = True
+    problems: list[str] = field(default_factory=list)
+    format: str = FORMAT
+
+    @property
+    def log10_class_size(self) -> float:
+        return _log10_int(self.class_size)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "format": self.format,
+            "nodes": list(self.nodes),
+            "regimes": [asdict(r) for r in self.regimes],
+            "edges": [asdict(e) for e in self.edges],
+            "class_size": int(self.class_size),
+            "log10_class_size": round(self.log10_class_size, 6),
+            "settings": self.settings,
+            "warnings": list(self.warnings),
+            "valid": self.valid,
+            "problems": list(self.problems),
+        }
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+
+    def graph(self) -> PDAG:
+        """The result's graph as a PDAG over ``nodes``."""
+        g = PDAG(self.nodes)
+        for e in self.edges:
+            if e.orientation == "directed":
+                g.add_directed(e.source, e.target)
+            else:
+                g.add_undirected(e.source, e.target)
+        return g
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any], where: str = "result.json") -> ResultRecord:
+        if not isinstance(d, dict) or d.get("format") != FORMAT:
+            raise InputError(f"{where}: not an Orienteer result (expected \"format\": \"{FORMAT}\")")
+        try:
+            nodes = [str(n) for n in d["nodes"]]
+            regimes = [RegimeRecord(**r) for r in d.get("regimes", [])]
+            edges = [EdgeRecord(**e) for e in d["edges"]]
+            rec = cls(nodes=nodes, regimes=regimes, edges=edges,
+                      class_size=int(d.get("class_size", 0)), settings=d.get("settings", {}),
+                      warnings=list(d.get("warnings", [])), valid=bool(d.get("valid", True)),
+                      problems=list(d.get("problems", [])))
+        except (KeyError, TypeError, ValueError) as exc:
+            raise InputError(f"{where}: malformed result ({exc})") from None
+        known = set(nodes)
+        for e in rec.edges:
+            if e.source not in known or e.target not in known:
+                raise InputError(f"{where}: edge {e.source} - {e.target} names a node not in 'nodes'")
+            if e.orientation not in ("directed", "undirected"):
+                raise InputError(f"{where}: edge {e.source} - {e.target} has orientation "
+                                 f"'{e.orientation}' (expected directed or undirected)")
+        return rec
+
+    @classmethod
+    def read(cls, path: str | Path) -> ResultRecord:
+        path = Path(path)
+        if not path.is_file():
+            raise InputError(f"{path}: no such file")
+        try:
+            d = json.loads(path.read_text(encoding="utf-8"))
+        except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+            raise InputError(f"{path}: not valid JSON ({exc})") from None
+        return cls.from_dict(d, where=str(path))
+
+
+def _log10_int(n: int) -> float:
+    """log10 of a possibly huge positive integer, without overflow."""
+    if n <= 0:
+        return float("-inf") if n == 0 else float("nan")
+    digits = len(str(n))
+    if digits < 300:
+        return math.log10(n)
+    head = int(str(n)[:17])
+    return math.log10(head) + digits - 17

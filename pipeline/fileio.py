@@ -1,0 +1,44 @@
+"""Atomic output files: write beside the destination, then rename over it."""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+from collections.abc import Callable
+from pathlib import Path
+from typing import IO, Any
+
+__all__ = ["atomic_write", "write_text", "write_json"]
+
+
+def atomic_write(path: str | Path, write: Callable[[IO[Any]], None], binary: bool = False) -> Path:
+    """Call ``write(handle)`` on a temporary file in the destination folder, then rename it.
+
+    An interrupted run leaves either the old file or the new one, never half of one.
+    """
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8",
+                                                                            "newline": ""})) as fh:
+            write(fh)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+    return path
+
+
+def write_text(path: str | Path, text: str) -> Path:
+    """Write `text` to `path` atomically."""
+    return atomic_write(path, lambda fh: fh.write(text))
+
+
+def write_json(path: str | Path, obj: Any) -> Path:
+    """Write `obj` as indented JSON to `path` atomically."""
+    return write_text(path, json.dumps(obj, indent=2, allow_nan=False) + "\n")

@@ -1,0 +1,1 @@
+"""The learner: PC on the graph augmented with intervention nodes."""
