@@ -16,7 +16,26 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Moments"]
+__all__ = ["Moments", "merge_moments"]
+
+
+def merge_moments(
+    n_a: int, mean_a: np.ndarray, scatter_a: np.ndarray,
+    n_b: int, mean_b: np.ndarray, scatter_b: np.ndarray,
+) -> tuple[int, np.ndarray, np.ndarray]:
+    """Merge the moments of two disjoint sets of rows (Chan, Golub & LeVeque 1979).
+
+    Returns ``(n, mean, scatter)`` of the union.
+    """
+    n = n_a + n_b
+    if n_a == 0:
+        return n_b, np.array(mean_b, dtype=float), np.array(scatter_b, dtype=float)
+    if n_b == 0:
+        return n_a, np.array(mean_a, dtype=float), np.array(scatter_a, dtype=float)
+    delta = mean_b - mean_a
+    mean = mean_a + delta * (n_b / n)
+    scatter = scatter_a + scatter_b + np.outer(delta, delta) * (n_a * n_b / n)
+    return n, mean, scatter
 
 
 @dataclass
@@ -54,3 +73,29 @@ class Moments:
                 d = x - mean[k]
                 scatter[k] = d.T @ d
         return cls(tuple(variables), regimes, count, mean, scatter)
+
+    def index(self, regime: str) -> int:
+        """Position of `regime` in `regimes`."""
+        return self.regimes.index(regime)
+
+    def pooled(self, regimes: list[str] | tuple[str, ...]) -> tuple[int, np.ndarray, np.ndarray]:
+        """``(n, mean, scatter)`` of the named regimes taken together (e.g. the reference)."""
+        p = len(self.variables)
+        n, mean, scatter = 0, np.zeros(p), np.zeros((p, p))
+        for name in regimes:
+            k = self.index(name)
+            n, mean, scatter = merge_moments(n, mean, scatter,
+                                             int(self.count[k]), self.mean[k], self.scatter[k])
+        return n, mean, scatter
+
+    def variances(self) -> np.ndarray:
+        """Per-regime sample variances, shape (K, p) (ddof=1; 0 where n_k < 2)."""
+        diag = np.diagonal(self.scatter, axis1=1, axis2=2)
+        denom = np.maximum(self.count - 1, 1)[:, None]
+        return np.where(self.count[:, None] > 1, diag / denom, 0.0)
+
+    def constant(self, rtol: float = 1e-12) -> np.ndarray:
+        """(K, p) mask of variables constant within a regime (variance ~0 relative to the scale)."""
+        var = self.variances()
+        scale = np.maximum(np.abs(self.mean) ** 2, var.max(axis=0, keepdims=True))
+        return var <= rtol * np.maximum(scale, np.finfo(float).tiny)
