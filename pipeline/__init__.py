@@ -1,8 +1,51 @@
 """Orienteer: orient the edges of a causal graph from control and perturbation experiments.
 
-The Python API mirrors the command line; see README.md.
+The Python API mirrors the command line::
+
+    import pipeline
+    result = pipeline.learn(["data.csv"], "regimes.csv", alpha=0.01)
+    result.edges            # DataFrame, one row per edge with its evidence
+    result.to_networkx()
+    result.save("out/")
+
+Names are imported lazily so that ``import pipeline`` stays fast.
 """
 
 from __future__ import annotations
 
-__all__: list[str] = []
+import importlib
+from typing import Any
+
+__all__ = [
+    "learn",
+    "check",
+    "simulate",
+    "identify",
+    "read_inputs",
+    "read_regimes",
+    "essential_graph",
+    "class_size",
+    "PDAG",
+]
+
+_WHERE = {
+    "learn": "pipeline.workflow",
+    "check": "pipeline.evidence.check",
+    "simulate": "pipeline.simulation",
+    "identify": "pipeline.evidence.identify",
+    "read_inputs": "pipeline.intake.read",
+    "read_regimes": "pipeline.intake.regimes",
+    "essential_graph": "pipeline.graphs.essential",
+    "class_size": "pipeline.graphs.counting",
+    "PDAG": "pipeline.graphs.pdag",
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _WHERE:
+        return getattr(importlib.import_module(_WHERE[name]), name)
+    raise AttributeError(f"module 'pipeline' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(list(globals()) + __all__)

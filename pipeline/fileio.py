@@ -11,6 +11,9 @@ from typing import IO, Any
 
 __all__ = ["atomic_write", "write_text", "write_json"]
 
+_UMASK = os.umask(0o022)
+os.umask(_UMASK)
+
 
 def atomic_write(path: str | Path, write: Callable[[IO[Any]], None], binary: bool = False) -> Path:
     """Call ``write(handle)`` on a temporary file in the destination folder, then rename it.
@@ -21,6 +24,7 @@ def atomic_write(path: str | Path, write: Callable[[IO[Any]], None], binary: boo
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
+        os.chmod(tmp, 0o666 & ~_UMASK)  # mkstemp makes 0600; outputs are ordinary files
         with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8",
                                                                             "newline": ""})) as fh:
             write(fh)

@@ -73,7 +73,8 @@ class ResultRecord:
             "regimes": [asdict(r) for r in self.regimes],
             "edges": [asdict(e) for e in self.edges],
             "class_size": int(self.class_size),
-            "log10_class_size": round(self.log10_class_size, 6),
+            "log10_class_size": (round(self.log10_class_size, 6) if self.class_size > 0
+                                 else None),  # 0: not a valid essential graph
             "settings": self.settings,
             "warnings": list(self.warnings),
             "valid": self.valid,
@@ -96,7 +97,8 @@ class ResultRecord:
     @classmethod
     def from_dict(cls, d: dict[str, Any], where: str = "result.json") -> ResultRecord:
         if not isinstance(d, dict) or d.get("format") != FORMAT:
-            raise InputError(f"{where}: not an Orienteer result (expected \"format\": \"{FORMAT}\")")
+            raise InputError(f"{where}: not an Orienteer result "
+                             f"(expected \"format\": \"{FORMAT}\")")
         try:
             nodes = [str(n) for n in d["nodes"]]
             regimes = [RegimeRecord(**r) for r in d.get("regimes", [])]
@@ -110,7 +112,8 @@ class ResultRecord:
         known = set(nodes)
         for e in rec.edges:
             if e.source not in known or e.target not in known:
-                raise InputError(f"{where}: edge {e.source} - {e.target} names a node not in 'nodes'")
+                raise InputError(f"{where}: edge {e.source} - {e.target} names a node "
+                                 f"not in 'nodes'")
             if e.orientation not in ("directed", "undirected"):
                 raise InputError(f"{where}: edge {e.source} - {e.target} has orientation "
                                  f"'{e.orientation}' (expected directed or undirected)")

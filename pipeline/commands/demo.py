@@ -1,0 +1,66 @@
+"""``orienteer demo``: run ``check`` and ``learn`` on the bundled demo data."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from rich.console import Console
+from rich.markup import escape
+
+import pipeline
+from pipeline.errors import InputError
+
+HELP = "run check and learn on the bundled demo data and print where the report is"
+
+DEFAULT_OUT = "orienteer-demo"
+
+
+def demo_folder() -> Path:
+    """The demo data folder ``data/demo`` of the source tree."""
+    folder = Path(pipeline.__file__).resolve().parents[1] / "data" / "demo"
+    needed = [folder / "measurements.csv", folder / "regimes.csv"]
+    missing = [p for p in needed if not p.is_file()]
+    if missing:
+        raise InputError(f"demo data: {', '.join(str(p) for p in missing)} not found (looked in "
+                         f"{folder}); the demo needs a source checkout of Orienteer with "
+                         f"data/demo/")
+    return folder
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--out", default=DEFAULT_OUT, metavar="DIR",
+                        help=f"output folder (default {DEFAULT_OUT}/)")
+
+
+def run(args: argparse.Namespace) -> int:
+    from pipeline.commands.check import print_result as print_check
+    from pipeline.commands.compare import print_scores
+    from pipeline.commands.learn import print_files, print_result
+    from pipeline.evidence.check import check
+    from pipeline.progress import Progress
+    from pipeline.workflow import learn
+
+    folder = demo_folder()
+    out = Path(args.out or DEFAULT_OUT)
+    data, regimes = folder / "measurements.csv", folder / "regimes.csv"
+    console = Console()
+    console.rule("[bold]1. check the inputs[/bold]")
+    print_check(check([data], regimes), console)
+    console.rule("[bold]2. learn the graph[/bold]")
+    with Progress() as bars:
+        result = learn([data], regimes, out=out, progress=bars)
+    print_result(result, console)
+    truth = folder / "truth_dag.csv"
+    if truth.is_file():
+        from pipeline.evidence.scoring import score_result
+        from pipeline.intake.dag import read_dag_csv
+
+        console.rule("[bold]3. against the true circuit (known for invented data)[/bold]")
+        scores, _ = score_result(result.record(), read_dag_csv(truth, extra_nodes=result.record(
+            ).nodes))
+        print_scores(scores, console)
+    print_files(out, console)
+    console.print(f"[bold]open the report:[/bold] {escape(str((out / 'report.html').resolve()))}",
+                  highlight=False)
+    return 0

@@ -1,0 +1,48 @@
+"""``orienteer identify``: what a planned set of experiments identifies if the graph were known."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from rich.console import Console
+
+from pipeline.errors import InputError
+from pipeline.evidence.identify import identify
+from pipeline.fileio import write_text
+from pipeline.intake.dag import read_dag_csv
+from pipeline.intake.design import Design
+from pipeline.intake.regimes import read_regimes
+
+HELP = "show the essential graph and class size that the regimes' targets identify in a known DAG"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--dag", metavar="DAG", help="dag.csv: one directed edge per row "
+                        "(columns source,target)")
+    parser.add_argument("--regimes", metavar="REGIMES", help="regimes.csv: regime,targets[,known]")
+    parser.add_argument("--out", metavar="FILE", help="write the result as JSON "
+                        "(format orienteer.result/1) to FILE")
+    parser.add_argument("--reference", metavar="REGIME",
+                        help="the reference regime when no regime has empty targets")
+
+
+def run(args: argparse.Namespace) -> int:
+    if not args.dag:
+        raise InputError("--dag: missing; name the known graph file (columns source,target)")
+    if not args.regimes:
+        raise InputError("--regimes: missing; name the regimes file (columns regime,targets)")
+    regimes = read_regimes(args.regimes, variables=None, reference=args.reference)
+    extra = [t for r in regimes for t in r.targets]
+    dag = read_dag_csv(args.dag, extra_nodes=extra)
+    design = Design(variables=tuple(str(n) for n in dag.nodes), regimes=tuple(regimes))
+    result = identify(dag, design)
+    console = Console()
+    result.print(console)
+    if args.out:
+        settings = {"dag": Path(args.dag).name, "regimes": Path(args.regimes).name}
+        if args.reference:
+            settings["reference"] = args.reference
+        path = write_text(args.out, result.record(settings).to_json())
+        console.print(f"wrote {path}")
+    return 0

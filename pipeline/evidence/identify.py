@@ -1,0 +1,198 @@
+"""What a planned set of experiments identifies if the causal graph were known.
+
+Given a DAG over the measured variables and the regimes' targets, the interventional
+essential graph (`pipeline.graphs.essential`) shows which edges every DAG compatible with
+the experiments directs the same way, and `class_size` how many DAGs remain. Per regime
+two figures say what it contributes:
+
+* ``oriented``: directed edges whose recorded reason is that regime's intervention node
+  (a collider with it, or Meek's rule 1 straight from it);
+* ``lost_without``: directed edges that become undirected when that regime alone is
+  left out (its unique contribution; 0 when other regimes make up for it).
+
+References
+----------
+1. A. Hauser, P. Buhlmann (2012). Characterization and greedy learning of interventional
+   Markov equivalence classes of directed acyclic graphs. JMLR 13, 2409-2464.
+"""
+
+from __future__ import annotations
+
+import io
+from dataclasses import dataclass, field
+
+import networkx as nx
+from rich.console import Console
+from rich.table import Table
+
+from pipeline.errors import InputError, nearest_names
+from pipeline.evidence.schema import EdgeRecord, RegimeRecord, ResultRecord
+from pipeline.graphs.essential import EssentialGraph, essential_graph
+from pipeline.graphs.pdag import InterventionNode
+from pipeline.graphs.validity import essential_graph_problems
+from pipeline.intake.design import Design
+
+__all__ = ["IdentifyResult", "identify"]
+
+#: Edge rows shown by `IdentifyResult.summary` (the JSON has them all).
+MAX_EDGE_ROWS = 40
+
+
+@dataclass
+class IdentifyResult:
+    """The essential graph a design identifies, with per-regime figures."""
+
+    design: Design
+    essential: EssentialGraph
+    class_size: int
+    oriented: dict[str, int]
+    lost_without: dict[str, int]
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def nodes(self) -> list[str]:
+        return list(self.design.variables)
+
+    @property
+    def undirected_edges(self) -> list[tuple[str, str]]:
+        return list(self.essential.graph.undirected_edges())
+
+    @property
+    def directed_edges(self) -> list[tuple[str, str]]:
+        return list(self.essential.graph.directed_edges())
+
+    def record(self, settings: dict | None = None) -> ResultRecord:
+        """The ``result.json`` record (CONTRACT.md), without test evidence."""
+        g = self.essential.graph
+        rows = []
+        for u, v in self.directed_edges:
+            reason = self.essential.reasons[(u, v)]
+            rows.append(EdgeRecord(source=str(u), target=str(v), orientation="directed",
+                                   rule=reason.rule, via=[_name(x) for x in reason.via]))
+        for u, v in self.undirected_edges:
+            rows.append(EdgeRecord(source=str(u), target=str(v), orientation="undirected"))
+        rows.sort(key=lambda e: sorted((g.index(e.source), g.index(e.target))))
+        regimes = [RegimeRecord(name=r.name, targets=list(r.targets), known=r.known,
+                                samples=r.samples, reference=r.reference)
+                   for r in self.design.regimes]
+        problems = essential_graph_problems(g)
+        return ResultRecord(nodes=self.nodes, regimes=regimes, edges=rows,
+                            class_size=self.class_size,
+                            settings={"command": "identify", **(settings or {})},
+                            warnings=list(self.warnings), valid=not problems, problems=problems)
+
+    def summary(self, width: int = 100) -> str:
+        """A readable text summary: class size, per-regime figures, the edges."""
+        console = Console(file=io.StringIO(), width=width, color_system=None,
+                          force_terminal=False)
+        self.print(console)
+        return console.file.getvalue()
+
+    def print(self, console: Console) -> None:
+        """Print the summary as rich tables on `console`."""
+        rec = self.record()
+        n_dir, n_und = len(self.directed_edges), len(self.undirected_edges)
+        console.print(f"Identifiable from the design: {len(self.nodes)} variables, "
+                      f"{n_dir + n_und} edges, {n_dir} directed, {n_und} undirected")
+        size = (str(self.class_size) if self.class_size < 10**12
+                else f"about 10^{rec.log10_class_size:.1f}")
+        console.print(f"DAGs in the class: {size}"
+                      + (" (fully identified)" if self.class_size == 1 else ""))
+        t = Table(title="Regimes")
+        for col in ("regime", "targets", "role", "orients", "lost without it"):
+            t.add_column(col, justify="right" if col in ("orients", "lost without it") else "left")
+        for r in self.design.regimes:
+            if r.reference:
+                t.add_row(r.name, ";".join(r.targets) or "-", "reference", "-", "-")
+            else:
+                t.add_row(r.name, ";".join(r.targets) or "-", "intervention",
+                          str(self.oriented.get(r.name, 0)),
+                          str(self.lost_without.get(r.name, 0)))
+        console.print(t)
+        t = Table(title="Edges")
+        for col in ("source", "", "target", "rule", "via"):
+            t.add_column(col)
+        for e in rec.edges[:MAX_EDGE_ROWS]:
+            mark = "->" if e.orientation == "directed" else "---"
+            t.add_row(e.source, mark, e.target, e.rule if e.orientation == "directed" else "",
+                      ", ".join(e.via))
+        console.print(t)
+        if len(rec.edges) > MAX_EDGE_ROWS:
+            console.print(f"... and {len(rec.edges) - MAX_EDGE_ROWS} more edges "
+                          "(write them all with --out)")
+        for w in self.warnings:
+            console.print(f"warning: {w}")
+
+
+def _name(x) -> str:
+    return x.regime if isinstance(x, InterventionNode) else str(x)
+
+
+def _check_inputs(dag: nx.DiGraph, design: Design) -> None:
+    if not isinstance(dag, nx.DiGraph) or not nx.is_directed_acyclic_graph(dag):
+        raise InputError("dag: should be a directed acyclic graph (networkx DiGraph)")
+    if set(map(str, dag.nodes)) != set(design.variables):
+        extra = sorted(set(design.variables) - set(map(str, dag.nodes)))
+        missing = sorted(set(map(str, dag.nodes)) - set(design.variables))
+        raise InputError(f"design: variables should be the nodes of the DAG (not in the DAG: "
+                         f"{extra or 'none'}; not in the design: {missing or 'none'})")
+    nodes = [str(n) for n in dag.nodes]
+    for r in design.regimes:
+        for t in r.targets:
+            if t not in dag:
+                raise InputError(f"regime '{r.name}': target '{t}' is not a node of the DAG"
+                                 f"{nearest_names(t, nodes)}")
+    if not design.reference:
+        raise InputError("design: no reference regime; name one with --reference REGIME")
+
+
+def identify(dag: nx.DiGraph, design: Design, *, leave_one_out: bool = True) -> IdentifyResult:
+    """The interventional essential graph of `dag` under the targets of `design`.
+
+    Parameters
+    ----------
+    dag : nx.DiGraph
+        The known DAG over ``design.variables``.
+    design : Design
+        Regimes and targets (``samples`` may be 0). Targets of regimes marked
+        ``known=False`` are taken as given, with a warning.
+    leave_one_out : bool
+        Compute ``lost_without`` (one more essential graph per regime).
+
+    Returns
+    -------
+    IdentifyResult
+
+    Raises
+    ------
+    InputError
+        If `dag` has a cycle, the design's variables are not the DAG's nodes, a target is
+        not a node, or there is no reference regime.
+    """
+    _check_inputs(dag, design)
+    targets = design.intervention_targets()  # symmetric differences with the reference
+    warnings = list(design.warnings) + list(dag.graph.get("warnings", []))
+    for r in design.interventional:
+        if not r.known:
+            warnings.append(f"regime '{r.name}' is marked known=no; its listed targets are "
+                            "taken as the true ones here")
+        if not targets[r.name]:
+            warnings.append(f"regime '{r.name}' acts on the same targets as the reference; "
+                            "it identifies nothing")
+    # Step 1: the essential graph of the whole design
+    ess = essential_graph(dag, targets)
+    oriented = dict.fromkeys(targets, 0)
+    for reason in ess.reasons.values():
+        if reason.rule == "intervention":
+            for f in reason.via:
+                if isinstance(f, InterventionNode):
+                    oriented[f.regime] += 1
+    # Step 2: what each regime alone contributes
+    lost: dict[str, int] = {}
+    if leave_one_out:
+        full = set(ess.graph.directed_edges())
+        for name in targets:
+            rest = {k: v for k, v in targets.items() if k != name}
+            lost[name] = len(full - set(essential_graph(dag, rest).graph.directed_edges()))
+    return IdentifyResult(design=design, essential=ess, class_size=ess.class_size(),
+                          oriented=oriented, lost_without=lost, warnings=warnings)

@@ -1,0 +1,225 @@
+"""Scores of a learned partially directed graph against a true one.
+
+The structural Hamming distance (SHD) between two partially directed graphs on the
+same nodes counts the edits that turn one into the other, one per pair of nodes: a
+missing or extra adjacency counts one, and an adjacency present in both whose marks
+differ (directed against undirected, or directed the other way) counts one
+(Tsamardinos, Brown & Aliferis 2006). Beside it, precision and recall of the adjacencies
+and of the directed edges are common practice.
+
+>>> from pipeline.graphs.pdag import PDAG
+>>> a = PDAG("ABC"); a.add_directed("A", "B"); a.add_undirected("B", "C")
+>>> b = PDAG("ABC"); b.add_directed("A", "B"); b.add_directed("C", "B")
+>>> shd(a, b)
+1
+
+References
+----------
+1. I. Tsamardinos, L. E. Brown, C. F. Aliferis (2006). The max-min hill-climbing Bayesian
+   network structure learning algorithm. Machine Learning 65(1), 31-78.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+from typing import Any
+
+import networkx as nx
+
+from pipeline.graphs.pdag import PDAG
+
+__all__ = ["Scores", "shd", "score", "result_targets", "score_result"]
+
+
+@dataclass(frozen=True)
+class Scores:
+    """How close a learned graph is to the truth.
+
+    Attributes
+    ----------
+    shd : int
+        Structural Hamming distance (see `shd`).
+    adjacency_precision, adjacency_recall : float or None
+        Among the learned adjacencies, the fraction that are true; among the true
+        adjacencies, the fraction learned. None when the denominator is 0.
+    orientation_precision, orientation_recall : float or None
+        Among the directed edges of the learned graph, the fraction directed the same way
+        in the truth; among the directed edges of the truth, the fraction the learned
+        graph directs the same way. None when the denominator is 0.
+    learned_edges, true_edges, shared_adjacencies : int
+    learned_directed, true_directed, shared_directed : int
+        The counts behind the fractions.
+    """
+
+    shd: int
+    adjacency_precision: float | None
+    adjacency_recall: float | None
+    orientation_precision: float | None
+    orientation_recall: float | None
+    learned_edges: int
+    true_edges: int
+    shared_adjacencies: int
+    learned_directed: int
+    true_directed: int
+    shared_directed: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+    def summary(self) -> str:
+        """A short text table of the scores."""
+        def f(v: float | None) -> str:
+            return "n/a" if v is None else f"{v:.3f}"
+        rows = [("structural Hamming distance", str(self.shd)),
+                ("adjacency precision", f(self.adjacency_precision)),
+                ("adjacency recall", f(self.adjacency_recall)),
+                ("orientation precision", f(self.orientation_precision)),
+                ("orientation recall", f(self.orientation_recall)),
+                ("edges learned / true", f"{self.learned_edges} / {self.true_edges}"),
+                ("directed learned / true", f"{self.learned_directed} / {self.true_directed}")]
+        w = max(len(a) for a, _ in rows)
+        return "\n".join(f"{a:<{w}}  {b}" for a, b in rows)
+
+
+def _check_same_nodes(a: PDAG, b: PDAG) -> None:
+    if set(a.nodes) != set(b.nodes):
+        only_a = sorted(map(str, set(a.nodes) - set(b.nodes)))
+        only_b = sorted(map(str, set(b.nodes) - set(a.nodes)))
+        raise ValueError(f"graphs should have the same nodes (only in the first: {only_a}; "
+                         f"only in the second: {only_b})")
+
+
+def _mark(g: PDAG, u, v) -> str | None:
+    """The mark of the pair {u, v} read from u's side: '->', '<-', '-' or None."""
+    if g.has_directed(u, v):
+        return "->"
+    if g.has_directed(v, u):
+        return "<-"
+    if g.has_undirected(u, v):
+        return "-"
+    return None
+
+
+def _pairs(g: PDAG) -> set[frozenset]:
+    return {frozenset(e) for e in g.skeleton().edges}
+
+
+def shd(a: PDAG, b: PDAG) -> int:
+    """Structural Hamming distance between two partially directed graphs.
+
+    Parameters
+    ----------
+    a, b : PDAG
+        Graphs on the same node set.
+
+    Returns
+    -------
+    int
+        One per pair adjacent in exactly one graph, plus one per pair adjacent in both
+        whose edge differs (directed against undirected, or opposite directions).
+
+    Raises
+    ------
+    ValueError
+        If the node sets differ.
+    """
+    _check_same_nodes(a, b)
+    pa, pb = _pairs(a), _pairs(b)
+    distance = len(pa ^ pb)
+    for pair in pa & pb:
+        u, v = tuple(pair)
+        if _mark(a, u, v) != _mark(b, u, v):
+            distance += 1
+    return distance
+
+
+def _ratio(num: int, den: int) -> float | None:
+    return num / den if den else None
+
+
+def score(learned: PDAG, truth: PDAG) -> Scores:
+    """SHD, adjacency and orientation precision and recall of `learned` against `truth`.
+
+    Parameters
+    ----------
+    learned, truth : PDAG
+        Graphs on the same node set; `truth` is usually the true essential graph.
+
+    Returns
+    -------
+    Scores
+
+    Raises
+    ------
+    ValueError
+        If the node sets differ.
+    """
+    _check_same_nodes(learned, truth)
+    pl, pt = _pairs(learned), _pairs(truth)
+    dl, dt = set(learned.directed_edges()), set(truth.directed_edges())
+    shared_adj = len(pl & pt)
+    shared_dir = len(dl & dt)
+    return Scores(
+        shd=shd(learned, truth),
+        adjacency_precision=_ratio(shared_adj, len(pl)),
+        adjacency_recall=_ratio(shared_adj, len(pt)),
+        orientation_precision=_ratio(shared_dir, len(dl)),
+        orientation_recall=_ratio(shared_dir, len(dt)),
+        learned_edges=len(pl), true_edges=len(pt), shared_adjacencies=shared_adj,
+        learned_directed=len(dl), true_directed=len(dt), shared_directed=shared_dir,
+    )
+
+
+def result_targets(record) -> tuple[dict[str, list[str]], list[str]]:
+    """The targets a result was learned under: ``(non-reference regime -> targets, reference)``.
+
+    Declared targets of regimes with ``known`` true; the detected targets of the others.
+    The reference targets are those of the reference regimes (normally none).
+    """
+    targets: dict[str, list[str]] = {}
+    reference: list[str] = []
+    for r in record.regimes:
+        chosen = list(r.targets) if r.known else list(r.detected_targets)
+        if r.reference:
+            reference.extend(t for t in chosen if t not in reference)
+        else:
+            targets[r.name] = chosen
+    return targets, reference
+
+
+def score_result(record, dag: nx.DiGraph) -> tuple[Scores, PDAG]:
+    """Score a ``result.json`` (a `ResultRecord`) against the true DAG under its regimes.
+
+    The truth is the interventional essential graph of `dag` under the targets of
+    `result_targets`, so a perfect learner scores an SHD of 0 even where the experiments
+    leave edges undirected.
+
+    Returns
+    -------
+    (Scores, PDAG)
+        The scores and the true essential graph (over the result's nodes).
+
+    Raises
+    ------
+    ValueError
+        If `dag` names a node that is not in the result.
+    """
+    from pipeline.graphs.essential import essential_graph
+
+    extra = sorted(set(dag.nodes) - set(record.nodes))
+    if extra:
+        raise ValueError(f"the true DAG has nodes that the result lacks: {', '.join(extra)}")
+    full = nx.DiGraph()
+    full.add_nodes_from(record.nodes)
+    full.add_edges_from(dag.edges)
+    targets, reference = result_targets(record)
+    truth = essential_graph(full, targets, reference).graph
+    learned = record.graph()
+    # compare over one node order (the result's)
+    truth = truth.subgraph(record.nodes)
+    ordered = PDAG(record.nodes)
+    for u, v in truth.directed_edges():
+        ordered.add_directed(u, v)
+    for u, v in truth.undirected_edges():
+        ordered.add_undirected(u, v)
+    return score(learned, ordered), ordered

@@ -1,0 +1,158 @@
+"""The evidence of a learned graph flattened into records and tables.
+
+`edge_records` turns the learner's output into one `EdgeRecord` per edge of the learned
+graph (the ``edges`` of ``result.json``): its orientation, the rule and the regimes or
+nodes behind its direction, the largest p-value of the tests that kept it, the p-value
+behind its collider, and notes. `edges_frame` and `removed_frame` give the same as
+pandas tables; `to_csv` writes them with list cells joined by ``;``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from collections.abc import Iterable
+
+import pandas as pd
+
+from pipeline.evidence.schema import EdgeRecord
+from pipeline.graphs.pdag import InterventionNode
+from pipeline.intake.design import Design
+from pipeline.learner.evidence import Learned
+
+__all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "removed_frame",
+           "to_csv"]
+
+EDGE_COLUMNS = ("source", "target", "orientation", "rule", "via", "p_adjacency",
+                "p_orientation", "conflict", "bootstrap_adjacency", "bootstrap_orientation",
+                "notes")
+REMOVED_COLUMNS = ("x", "y", "separating_set", "pvalue", "statistic", "level", "regime",
+                   "notes")
+
+
+def _num(v: float | None) -> float | None:
+    """A finite float, or None (JSON has no NaN)."""
+    if v is None:
+        return None
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def _via_name(n: object) -> str:
+    return n.regime if isinstance(n, InterventionNode) else str(n)
+
+
+def _collider_text(t: tuple[str, str, str]) -> str:
+    a, c, b = t
+    return f"{a} -> {c} <- {b}"
+
+
+def edge_records(learned: Learned, design: Design,
+                 constant: dict[str, list[str]] | None = None) -> list[EdgeRecord]:
+    """One record per edge of ``learned.graph``: directed edges first, in variable order.
+
+    Parameters
+    ----------
+    learned : Learned
+        The learner's output.
+    design : Design
+        Fixes the variable order (an undirected edge is listed from the earlier node).
+    constant : dict, optional
+        Regime -> variables constant within it; the tests of an edge touching one leave
+        that regime out, and the edge says so in its notes.
+
+    Returns
+    -------
+    list of EdgeRecord
+    """
+    g = learned.graph
+    order = {v: i for i, v in enumerate(design.variables)}
+    kept = {frozenset((k.x, k.y)): k for k in learned.kept if k.regime is None}
+    conflicts = {frozenset((c.source, c.target)): c for c in learned.conflicts}
+    left_out: dict[str, list[str]] = {}
+    for regime, names in (constant or {}).items():
+        for v in names:
+            left_out.setdefault(v, []).append(regime)
+    out: list[EdgeRecord] = []
+
+    def evidence(u: str, v: str) -> tuple[float | None, list[str]]:
+        k = kept.get(frozenset((u, v)))
+        notes: list[str] = []
+        if k is not None and k.tests:
+            notes.append(f"kept by {k.tests} tests")
+        for w in (u, v):
+            if w in left_out:
+                notes.append(f"{w} is constant within {', '.join(left_out[w])}: "
+                             f"left out of the tests of this edge")
+        c = conflicts.get(frozenset((u, v)))
+        if c is not None:
+            notes.append("colliders direct it both ways: "
+                         + "; ".join(_collider_text(t) for t in c.colliders))
+        return (_num(k.max_pvalue) if k is not None else None), notes
+
+    # directed edges, by variable order of the source then the target
+    for u, v in sorted(g.directed_edges(), key=lambda e: (order[e[0]], order[e[1]])):
+        reason = learned.essential.reasons.get((u, v))
+        p_adj, notes = evidence(u, v)
+        out.append(EdgeRecord(
+            source=str(u), target=str(v), orientation="directed",
+            rule=reason.rule if reason is not None else "none",
+            via=[_via_name(n) for n in (reason.via if reason is not None else ())],
+            p_adjacency=p_adj, p_orientation=_num(learned.p_orientation.get((u, v))),
+            conflict=False, notes=notes))
+    # undirected edges, the earlier node first
+    for u, v in sorted((tuple(sorted(e, key=order.__getitem__)) for e in g.undirected_edges()),
+                       key=lambda e: (order[e[0]], order[e[1]])):
+        p_adj, notes = evidence(u, v)
+        out.append(EdgeRecord(
+            source=str(u), target=str(v), orientation="undirected", rule="none", via=[],
+            p_adjacency=p_adj, p_orientation=None,
+            conflict=frozenset((u, v)) in conflicts, notes=notes))
+    return out
+
+
+def edges_frame(records: Iterable[EdgeRecord]) -> pd.DataFrame:
+    """The edge records as a table (columns `EDGE_COLUMNS`; `via`, `notes` hold lists)."""
+    rows = [{c: getattr(r, c) for c in EDGE_COLUMNS} for r in records]
+    frame = pd.DataFrame(rows, columns=list(EDGE_COLUMNS))
+    for c in ("p_adjacency", "p_orientation", "bootstrap_adjacency", "bootstrap_orientation"):
+        frame[c] = frame[c].astype(float)
+    frame["conflict"] = frame["conflict"].astype(bool)
+    return frame
+
+
+def removed_frame(learned: Learned) -> pd.DataFrame:
+    """One row per pair found non-adjacent, with the test that separated it.
+
+    Columns `REMOVED_COLUMNS`; `separating_set` and `notes` hold lists; `regime` names
+    the regime when `x` is an intervention node (``F[regime]``), else it is empty.
+    """
+    rows = [{"x": r.x, "y": r.y, "separating_set": list(r.separating_set),
+             "pvalue": _num(r.pvalue), "statistic": _num(r.statistic), "level": int(r.level),
+             "regime": r.regime or "", "notes": list(r.notes)}
+            for r in learned.removed]
+    frame = pd.DataFrame(rows, columns=list(REMOVED_COLUMNS))
+    frame["pvalue"] = frame["pvalue"].astype(float)
+    frame["statistic"] = frame["statistic"].astype(float)
+    frame["level"] = frame["level"].astype(int)
+    return frame
+
+
+def to_csv(frame: pd.DataFrame) -> str:
+    """CSV text of a table: list cells joined by ``;``, None and NaN as empty cells.
+
+    Floats are written in their shortest exact form (``repr``), so nothing is rounded.
+    """
+    def cell(v: object) -> object:
+        if isinstance(v, (list, tuple)):
+            return ";".join(map(str, v))
+        if v is None or (isinstance(v, float) and v != v):
+            return ""
+        return v
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(list(frame.columns))
+    w.writerows([cell(v) for v in row] for row in frame.itertuples(index=False, name=None))
+    return buf.getvalue()

@@ -1,0 +1,294 @@
+"""The ``learn`` workflow: inputs to a saved result, reusing the test store.
+
+`learn` is the Python face of ``orienteer learn``. It validates its arguments once,
+then:
+
+1. fingerprints the raw input bytes and the options that change the statistics;
+2. with an output folder, opens ``tests.sqlite`` there; if the store holds the
+   statistics of that fingerprint, it takes them from there and parses no data file,
+   else it reads the inputs (`pipeline.intake.read.read_inputs`) and stores them;
+3. checks the inputs from the statistics (`pipeline.evidence.check.check_intake`);
+4. runs the learner (`pipeline.learner.pc.learn_graph`) with the Gaussian tester behind
+   the store, so that only tests never run before are computed;
+5. wraps the outcome in a `LearnResult` and, with an output folder, saves its files.
+
+`learn_from_moments` runs steps 3-5 on sufficient statistics already in memory.
+"""
+
+from __future__ import annotations
+
+import numbers
+import time
+from collections.abc import Callable, Sequence
+from contextlib import nullcontext
+from pathlib import Path
+from typing import Any
+
+from pipeline.errors import InputError, nearest_names
+from pipeline.evidence.result import LearnResult
+from pipeline.intake.design import Design
+from pipeline.stats.moments import Moments
+
+__all__ = ["learn", "learn_from_moments", "TARGET_MODES", "TESTS", "COLLIDER_RULES",
+           "STORE_NAME"]
+
+TARGET_MODES = ("declared", "learn")
+TESTS = ("gaussian", "rank")
+COLLIDER_RULES = ("majority", "conservative", "standard")
+#: The store's file name in the output folder.
+STORE_NAME = "tests.sqlite"
+
+ProgressArg = bool | Callable[[str, int, int], None] | None
+
+
+# -- validation (once, at the public entry) ------------------------------------------------------
+def _choice(name: str, value: Any, allowed: tuple[str, ...]) -> str:
+    if value not in allowed:
+        raise InputError(f"{name} {value!r}: not a choice{nearest_names(str(value), allowed)}; "
+                         f"use one of {', '.join(allowed)}")
+    return str(value)
+
+
+def _check_alpha(alpha: Any) -> float:
+    if isinstance(alpha, bool) or not isinstance(alpha, numbers.Real) or not 0 < alpha < 1:
+        raise InputError(f"--alpha {alpha!r}: expected a number strictly between 0 and 1 "
+                         f"(for instance 0.01)")
+    return float(alpha)
+
+
+def _check_max_k(k: Any) -> int | None:
+    if k is None:
+        return None
+    if isinstance(k, bool) or not isinstance(k, numbers.Integral) or k < 0:
+        raise InputError(f"--max-condition-size {k!r}: expected a whole number >= 0, or no "
+                         f"value for no limit")
+    return int(k)
+
+
+def _check_options(alpha, max_condition_size, targets, test, collider_rule):
+    return (_check_alpha(alpha), _check_max_k(max_condition_size),
+            _choice("--targets", targets, TARGET_MODES), _choice("--test", test, TESTS),
+            _choice("--collider-rule", collider_rule, COLLIDER_RULES))
+
+
+def _check_paths(data: Any, regimes: Any) -> tuple[list[Path], Path]:
+    if data is None or (isinstance(data, (list, tuple)) and not data):
+        raise InputError("DATA: no data file given; name one or more CSV or Parquet files")
+    if isinstance(data, (str, Path)):
+        data = [data]
+    paths = []
+    for d in data:
+        if not isinstance(d, (str, Path)):
+            raise InputError(f"DATA: {type(d).__name__} given; expected paths of CSV or "
+                             f"Parquet files")
+        p = Path(d)
+        if not p.is_file():
+            raise InputError(f"data file {p}: no such file; check the path")
+        paths.append(p)
+    if regimes is None:
+        raise InputError("--regimes: no regimes file given; pass --regimes REGIMES.csv")
+    r = Path(regimes)
+    if not r.is_file():
+        raise InputError(f"regimes file {r}: no such file; check the path given to --regimes")
+    return paths, r
+
+
+# -- the workflow -------------------------------------------------------------------------------
+def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
+          out: str | Path | None = None, alpha: float = 0.01,
+          max_condition_size: int | None = None, targets: str = "declared",
+          reference: str | None = None, regime_column: str = "regime",
+          ignore_columns: Sequence[str] | str = (), drop_missing: bool = False,
+          test: str = "gaussian", collider_rule: str = "majority", seed: int | None = None,
+          progress: ProgressArg = False) -> LearnResult:
+    """Learn the interventional essential graph of measurement files, with per-edge evidence.
+
+    Parameters
+    ----------
+    data : path or sequence of paths
+        Measurement files (CSV or Parquet), read as one table.
+    regimes : path
+        The regimes file.
+    out : path, optional
+        Output folder: its ``tests.sqlite`` is used and updated, and the result files are
+        written there (earlier ones moved to ``out/history/``).
+    alpha : float in (0, 1)
+        Significance level of every test.
+    max_condition_size : int >= 0 or None
+        Largest conditioning set tried (None: no limit).
+    targets : {"declared", "learn"}
+        Take declared targets as given, or learn every regime's targets.
+    reference, regime_column, ignore_columns, drop_missing, test
+        As for `pipeline.intake.read.read_inputs`.
+    collider_rule : {"majority", "conservative", "standard"}
+    seed : int, optional
+        Recorded in the settings (nothing random runs yet).
+    progress : bool or callable
+        True: progress bars on a terminal; a callable receives ``(label, done, total)``.
+
+    Returns
+    -------
+    LearnResult
+
+    Raises
+    ------
+    InputError
+        An argument or an input file is wrong; the message names it.
+    """
+    # 0. validate everything once
+    alpha, max_k, targets, test, collider_rule = _check_options(
+        alpha, max_condition_size, targets, test, collider_rule)
+    paths, regimes_path = _check_paths(data, regimes)
+    if out is not None and Path(out).exists() and not Path(out).is_dir():
+        raise InputError(f"--out {out}: is a file; name a folder for the result files")
+    if isinstance(ignore_columns, str):
+        ignore_columns = [c for c in ignore_columns.split(",")]
+    ignore = tuple(str(c).strip() for c in ignore_columns if str(c).strip())
+    started = time.perf_counter()
+
+    from pipeline.intake.read import Intake, read_inputs
+    from pipeline.stats.fingerprint import fingerprint_inputs
+
+    # 1. the fingerprint: raw bytes and the options that change the statistics
+    options = dict(regime_column=regime_column, ignore_columns=ignore,
+                   drop_missing=bool(drop_missing), reference=reference, test=test)
+    fingerprint = fingerprint_inputs(paths, regimes_path, **options)
+
+    # 2. statistics from the store, or read once and stored (the store file is created
+    #    only once the inputs have been read without error: no partial output)
+    from pipeline.independence.store import TestStore
+
+    store_path = Path(out) / STORE_NAME if out is not None else None
+    store = TestStore(store_path) if store_path is not None and store_path.is_file() else None
+    try:
+        stored = store.get_inputs(fingerprint) if store is not None else None
+        if stored is not None:
+            intake = Intake(stored.design, stored.moments, fingerprint, stored.dropped_rows,
+                            list(stored.warnings))
+        else:
+            from pipeline.progress import Progress
+
+            show = progress.enabled if isinstance(progress, Progress) else progress is True
+            intake = read_inputs(paths, regimes_path, progress=show, **options)
+            if store_path is not None:
+                store = store or TestStore(store_path)
+                store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,
+                                 intake.dropped_rows)
+        settings = {"alpha": alpha, "max_condition_size": max_k, "targets": targets,
+                    "test": test, "collider_rule": collider_rule, "reference": reference,
+                    "regime_column": regime_column, "ignore_columns": list(ignore),
+                    "drop_missing": bool(drop_missing), "fingerprint": fingerprint}
+        if seed is not None:
+            settings["seed"] = seed
+        result = _learn(intake.design, intake.moments, intake=intake, store=store,
+                        fingerprint=fingerprint, alpha=alpha, max_condition_size=max_k,
+                        targets=targets, collider_rule=collider_rule, settings=settings,
+                        progress=progress, check=True)
+        result.run["from_store"] = stored is not None
+        result.run["seconds"] = time.perf_counter() - started
+        # 5. the files
+        if out is not None:
+            result.run["files"] = {k: str(v) for k, v in result.save(out).items()}
+            result.run["files"][STORE_NAME] = str(Path(out) / STORE_NAME)
+    finally:
+        if store is not None:
+            store.close()
+    return result
+
+
+def learn_from_moments(design: Design, moments: Moments, *, alpha: float = 0.01,
+                       max_condition_size: int | None = None, targets: str = "declared",
+                       collider_rule: str = "majority", test: str = "gaussian",
+                       store: Any = None, fingerprint: str | None = None, check: bool = False,
+                       progress: ProgressArg = False) -> LearnResult:
+    """Learn from sufficient statistics already in memory (no file is read or written).
+
+    Parameters
+    ----------
+    design : Design
+    moments : Moments
+        Per-regime statistics of every regime of `design`.
+    alpha, max_condition_size, targets, collider_rule
+        As for `learn`.
+    test : str
+        Recorded in the settings (the statistics decide what was tested).
+    store : TestStore, optional
+        Answer from and write to this store under `fingerprint` (required with it).
+    check : bool
+        Also run the input check (target check, response matrix).
+    progress : bool or callable
+
+    Returns
+    -------
+    LearnResult
+
+    Raises
+    ------
+    InputError
+        An argument is out of range.
+    """
+    alpha, max_k, targets, test, collider_rule = _check_options(
+        alpha, max_condition_size, targets, test, collider_rule)
+    if not isinstance(design, Design) or not isinstance(moments, Moments):
+        raise InputError("learn_from_moments: expected a Design and a Moments object")
+    if store is not None and not fingerprint:
+        raise InputError("learn_from_moments: a store needs the fingerprint of the inputs")
+    settings = {"alpha": alpha, "max_condition_size": max_k, "targets": targets, "test": test,
+                "collider_rule": collider_rule, "reference": None,
+                "fingerprint": fingerprint or ""}
+    return _learn(design, moments, intake=None, store=store, fingerprint=fingerprint or "",
+                  alpha=alpha, max_condition_size=max_k, targets=targets,
+                  collider_rule=collider_rule, settings=settings, progress=progress,
+                  check=check)
+
+
+def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str, alpha: float,
+           max_condition_size: int | None, targets: str, collider_rule: str,
+           settings: dict[str, Any], progress: ProgressArg, check: bool) -> LearnResult:
+    """Steps 3-4 of the workflow; arguments already validated."""
+    from pipeline.independence.gaussian import GaussianTester
+    from pipeline.learner.pc import learn_graph
+
+    # 3. the input check, from the statistics alone
+    checked = None
+    if check:
+        from pipeline.evidence.check import check_intake
+        from pipeline.intake.read import Intake
+
+        if intake is None:
+            intake = Intake(design, moments, fingerprint, 0, list(design.warnings))
+        checked = check_intake(intake, alpha=alpha)
+
+    # 4. the learner, asking its tests through the store
+    tester: Any = GaussianTester(moments, design)
+    if store is not None:
+        from pipeline.independence.store import CachedTester
+
+        tester = CachedTester(tester, store, fingerprint, n_regimes=len(design.regimes))
+    if callable(progress):
+        bars = nullcontext(progress)
+    else:
+        from pipeline.progress import Progress
+
+        bars = Progress(enabled=None if progress else False)
+    with bars as report:
+        learned = learn_graph(design, tester, alpha=alpha, max_condition_size=max_condition_size,
+                              targets=targets, collider_rule=collider_rule,
+                              progress=report if (progress and report is not None) else None)
+    if store is not None:
+        tester.flush()
+
+    warnings: list[str] = []
+    for w in [*(intake.warnings if intake is not None else design.warnings),
+              *(checked.warnings if checked is not None else ()), *learned.warnings]:
+        if w not in warnings:
+            warnings.append(w)
+    run: dict[str, Any] = {}
+    if store is not None:
+        run.update(computed=tester.computed, reused=tester.reused)
+        store.log_run(fingerprint, settings, tester.computed, tester.reused)
+    else:
+        n = getattr(tester, "n_tests", {})
+        run.update(computed=sum(n.values()) if n else None, reused=0)
+    return LearnResult(learned=learned, design=design, settings=settings, warnings=warnings,
+                       check=checked, run=run)

@@ -1,0 +1,198 @@
+"""Tests of pipeline.evidence.check and ``orienteer check``, on simulated experiments."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from types import SimpleNamespace
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+import pytest
+
+from pipeline.cli import main
+from pipeline.errors import InputError
+from pipeline.evidence.check import MOVED, NOT_MOVED, check, check_intake
+from pipeline.intake.design import Design, Regime
+from pipeline.simulation import simulate
+from pipeline.stats.moments import Moments
+
+
+def _intake(data: pd.DataFrame, regimes: pd.DataFrame):
+    """An intake built straight from in-memory tables (the fields `check_intake` reads)."""
+    variables = tuple(c for c in data.columns if c != "regime")
+    groups = {name: g[list(variables)].to_numpy() for name, g in data.groupby("regime", sort=False)}
+    design = Design(variables, tuple(
+        Regime(row.regime, tuple(filter(None, row.targets.split(";"))), row.known == "yes",
+               reference=not row.targets, samples=len(groups[row.regime]))
+        for row in regimes.itertuples()))
+    moments = Moments.from_samples({r.name: groups[r.name] for r in design.regimes}, variables)
+    return SimpleNamespace(design=design, moments=moments, fingerprint="", dropped_rows=0,
+                           warnings=[])
+
+
+def _descendants(g: nx.DiGraph, targets: str) -> set[str]:
+    out: set[str] = set()
+    for t in filter(None, targets.split(";")):
+        out |= {t} | nx.descendants(g, t)
+    return out
+
+
+@pytest.mark.parametrize("kind", ["knockdown", "perfect"])
+def test_declared_targets_move(kind):
+    sim = simulate(nodes=6, regimes=4, samples=1500, kind=kind, seed=21)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    assert len(res.targets) == 4
+    for t in res.targets:
+        assert t.verdict == MOVED
+        assert t.pvalue < 1e-6
+    assert not res.failed_targets()
+
+
+def test_target_that_was_not_hit_is_flagged():
+    # a deliberately wrong regimes file: declare a variable the experiment did not touch
+    # and that is not downstream of what it touched (networkx.descendants as the reference)
+    sim = simulate(nodes=8, degree=1.5, regimes=3, samples=1500, seed=4)
+    regimes = sim.regimes.copy()
+    row = 1
+    hit = regimes.loc[row, "targets"]
+    untouched = sorted(set(sim.model.variables) - _descendants(sim.truth_dag, hit))
+    regimes.loc[row, "targets"] = untouched[0]
+    res = check_intake(_intake(sim.data, regimes))
+    name = regimes.loc[row, "regime"]
+    verdicts = {(t.regime, t.target): t.verdict for t in res.targets}
+    assert verdicts[(name, untouched[0])] == NOT_MOVED
+    assert res.failed_targets() == {name: [untouched[0]]}
+    assert any(name in w and "no orienting information" in w for w in res.warnings)
+
+
+def test_response_matrix_reads_the_descendants():
+    # under faithfulness X shifts under regime k iff X is a descendant of a target
+    # (Eberhardt & Scheines 2007); networkx.descendants on the true DAG is the reference
+    sim = simulate(nodes=7, degree=2.0, regimes=7, samples=5000, kind="shift", strength=2.0,
+                   seed=8)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    resp = res.response
+    truth = dict(zip(sim.truth_regimes["regime"], sim.truth_regimes["targets"], strict=True))
+    n_down = 0
+    for i, name in enumerate(resp.regimes):
+        down = _descendants(sim.truth_dag, truth[name])
+        for j, v in enumerate(resp.variables):
+            if v in down:
+                assert resp.pvalue[i, j] < 1e-6, (name, v)
+                n_down += 1
+            else:
+                assert resp.pvalue[i, j] > 1e-4, (name, v)
+                assert abs(resp.shift[i, j]) < 0.15, (name, v)
+    assert n_down > len(resp.regimes)  # some descendants beyond the targets themselves
+    frame = res.response_frame()
+    assert list(frame.columns) == ["regime", "variable", "shift", "pvalue"]
+    assert len(frame) == len(resp.regimes) * len(resp.variables)
+
+
+def test_control_batches_that_agree():
+    sim = simulate(nodes=6, regimes=2, samples=1000, controls=2, seed=13)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    assert res.controls is not None
+    assert res.controls.regimes == ("ctrl_1", "ctrl_2")
+    assert res.controls.agree and res.controls.verdict == "agree"
+    assert res.controls.differing == {"ctrl_1": [], "ctrl_2": []}
+    assert not any("control batches differ" in w for w in res.warnings)
+
+
+def test_control_batch_with_shifted_mean_is_flagged():
+    sim = simulate(nodes=6, regimes=2, samples=1000, controls=2, seed=13)
+    data = sim.data.copy()
+    rows = data["regime"] == "ctrl_2"
+    sd = data.loc[data["regime"] == "ctrl_1", "X3"].std()
+    data.loc[rows, "X3"] += 0.5 * sd
+    res = check_intake(_intake(data, sim.regimes))
+    assert not res.controls.agree
+    assert "X3" in res.controls.differing["ctrl_2"]
+    assert all(v == "X3" for vs in res.controls.differing.values() for v in vs)
+    assert any("control batches differ" in w for w in res.warnings)
+
+
+def test_constant_within_regime_is_a_warning_and_a_shift():
+    sim = simulate(nodes=5, regimes=2, samples=300, kind="knockdown", strength=1 / 0.7, seed=3)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    for t in res.targets:  # a complete knockout: the target is constant in its regime
+        assert res.constant[t.regime] == [t.target]
+        assert t.verdict == MOVED and t.pvalue == 0.0
+    assert sum("constant within the regime" in w for w in res.warnings) == 2
+    json.dumps(res.to_dict(), allow_nan=False)  # infinities become null
+
+
+def test_few_samples_and_bad_alpha():
+    sim = simulate(nodes=4, regimes=1, samples=20, seed=1)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    assert sum("only 20 samples" in w for w in res.warnings) == 2
+    with pytest.raises(InputError, match="alpha"):
+        check_intake(_intake(sim.data, sim.regimes), alpha=1.5)
+
+
+def test_summary_and_dict_carry_the_verdicts():
+    sim = simulate(nodes=5, regimes=2, samples=400, seed=2)
+    res = check_intake(_intake(sim.data, sim.regimes))
+    text = res.summary()
+    for name in sim.regimes["regime"]:
+        assert name in text
+    d = res.to_dict()
+    assert d["format"] == "orienteer.check/1"
+    assert [t["verdict"] for t in d["targets"]] == [t.verdict for t in res.targets]
+    assert np.array(d["response"]["pvalue"]).shape == res.response.pvalue.shape
+
+
+# -- reading files: the API entry and the command line -----------------------------------
+
+DEMO = Path(__file__).resolve().parents[1] / "data" / "demo"
+
+
+def test_cli_writes_check_json_and_response_csv(tmp_path, capsys):
+    sim = simulate(nodes=5, regimes=2, samples=300, controls=2, seed=6)
+    sim.save(tmp_path / "in")
+    out = tmp_path / "out"
+    code = main(["check", str(tmp_path / "in" / "data.csv"),
+                 "--regimes", str(tmp_path / "in" / "regimes.csv"), "--out", str(out)])
+    assert code == 0
+    printed = capsys.readouterr().out
+    assert "Response matrix" in printed and "Control batches" in printed
+    d = json.loads((out / "check.json").read_text(encoding="utf-8"))
+    assert d["format"] == "orienteer.check/1"
+    assert d["reference"] == ["ctrl_1", "ctrl_2"]
+    assert d["controls"]["verdict"] in ("agree", "differ")
+    assert {t["regime"] for t in d["targets"]} == set(sim.regimes["regime"][2:])
+    frame = pd.read_csv(out / "response.csv")
+    assert list(frame.columns) == ["regime", "variable", "shift", "pvalue"]
+    assert len(frame) == 2 * 5
+    # the API entry reads the same files to the same numbers
+    res = check(tmp_path / "in" / "data.csv", tmp_path / "in" / "regimes.csv")
+    assert np.allclose(res.response.pvalue, np.array(d["response"]["pvalue"], dtype=float))
+
+
+def test_cli_input_errors_exit_2(tmp_path, capsys):
+    sim = simulate(nodes=4, regimes=1, samples=50, seed=6)
+    sim.save(tmp_path)
+    assert main(["check", str(tmp_path / "data.csv")]) == 2
+    assert "error: --regimes" in capsys.readouterr().err
+    assert main(["check", str(tmp_path / "data.csv"), "--regimes",
+                 str(tmp_path / "regimes.csv"), "--alpha", "2"]) == 2
+    assert "error: alpha" in capsys.readouterr().err
+    assert not (tmp_path / "check.json").exists()
+
+
+def test_demo_data_shows_its_lessons():
+    # data/demo/README.md: the failed guide, the complete knockout, agreeing controls,
+    # and knockdowns that shift exactly the descendants of their targets
+    res = check(DEMO / "measurements.csv", DEMO / "regimes.csv")
+    assert res.failed_targets() == {"kd_qsn2": ["qsn2"]}
+    assert res.constant == {"ko_qlw1": ["qlw1"]}
+    assert res.controls.agree
+    dag = nx.DiGraph(list(pd.read_csv(DEMO / "truth_dag.csv").itertuples(index=False)))
+    truth = pd.read_csv(DEMO / "truth_regimes.csv", keep_default_na=False)
+    moved = res.response.shifted(res.alpha)
+    for i, name in enumerate(res.response.regimes):
+        targets = truth.loc[truth["regime"] == name, "targets"].item()
+        down = _descendants(dag, targets)
+        assert {v for v, m in zip(res.response.variables, moved[i], strict=True) if m} == down

@@ -1,0 +1,98 @@
+"""The command-line frame: --config files, exit codes, fault logs, ``python -m pipeline``."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import tomllib
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from pipeline import cli
+from pipeline.errors import nearest_names
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_python_m_pipeline_lists_commands():
+    out = subprocess.run([sys.executable, "-m", "pipeline", "--help"], capture_output=True,
+                         text=True, check=True).stdout
+    assert "simulate" in out and "check" in out
+
+
+def test_config_values_apply_and_command_line_wins(tmp_path):
+    config = tmp_path / "c.toml"
+    config.write_text("[simulate]\nnodes = 4\nsamples = 50\nseed = 3\n")
+    assert cli.main(["simulate", "--out", str(tmp_path / "a"), "--config", str(config)]) == 0
+    data = pd.read_csv(tmp_path / "a" / "data.csv")
+    assert [c for c in data.columns if c != "regime"] == ["X1", "X2", "X3", "X4"]
+    assert cli.main(["simulate", "--out", str(tmp_path / "b"), "--config", str(config),
+                     "--nodes", "6"]) == 0
+    data = pd.read_csv(tmp_path / "b" / "data.csv")
+    assert len([c for c in data.columns if c != "regime"]) == 6
+
+
+def test_config_unknown_key_is_an_input_error(tmp_path, capsys):
+    config = tmp_path / "c.toml"
+    config.write_text("[simulate]\nnodez = 4\n")
+    assert cli.main(["simulate", "--out", str(tmp_path / "a"), "--config", str(config)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error:") and "nodez" in err and "nodes" in err
+
+
+def test_config_missing_file_and_bad_toml(tmp_path, capsys):
+    assert cli.main(["simulate", "--out", str(tmp_path), "--config", str(tmp_path / "no.toml")]) == 2
+    bad = tmp_path / "bad.toml"
+    bad.write_text("nodes = = 3\n")
+    assert cli.main(["simulate", "--out", str(tmp_path), "--config", str(bad)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("error:") == 2 and "Traceback" not in err
+
+
+def test_default_config_keys_are_options_of_some_command():
+    table = tomllib.loads((ROOT / "configs" / "default.toml").read_text())
+    names = cli._all_option_names()
+    for key, value in table.items():
+        if isinstance(value, dict):
+            assert key in cli.COMMANDS, key
+            sub = {a.dest for a in _subparser(key)._actions}
+            for inner in value:
+                assert inner in sub, f"[{key}] {inner}"
+        else:
+            assert key in names, key
+
+
+def _subparser(name):
+    parser = cli.build_parser()
+    for action in parser._subparsers._group_actions:
+        return action.choices[name]
+    raise AssertionError(name)
+
+
+def test_internal_fault_exits_1_with_a_log(tmp_path, monkeypatch, capsys):
+    monkeypatch.setenv("ORIENTEER_LOG_DIR", str(tmp_path))
+
+    def boom(args):
+        raise RuntimeError("deliberate fault")
+
+    import pipeline.commands.simulate as sim
+
+    monkeypatch.setattr(sim, "run", boom)
+    assert cli.main(["simulate", "--out", str(tmp_path / "x")]) == 1
+    err = capsys.readouterr().err
+    assert "deliberate fault" in err and "Traceback" not in err
+    logs = list(tmp_path.glob("orienteer-fault-*.log"))
+    assert len(logs) == 1 and "RuntimeError" in logs[0].read_text()
+
+
+def test_bad_command_line_exits_2():
+    with pytest.raises(SystemExit) as exc:
+        cli.main(["simulate", "--nodes", "many"])
+    assert exc.value.code == 2
+
+
+def test_nearest_names():
+    assert "X10" in nearest_names("X1O", ["X1", "X10", "Y"])
+    assert nearest_names("zzz", ["X1"]) == ""

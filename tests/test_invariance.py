@@ -1,0 +1,200 @@
+"""Likelihood-ratio invariance tests (pipeline.independence.invariance) against statsmodels.
+
+Outside references: the LR statistic is twice the difference of the log-likelihoods of
+statsmodels OLS fits on the raw rows (separate fits minus the fit on the union); its
+p-value is the chi-square tail of scipy.stats.chi2; null p-values are checked for
+uniformity with scipy.stats.kstest.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+from scipy import stats
+
+from pipeline.independence.invariance import ResponseMatrix, invariance_lr, response_matrix
+from pipeline.intake.design import Design, Regime
+from pipeline.stats.moments import Moments, merge_moments
+
+VARIABLES = ("A", "B", "C", "D", "E")
+
+
+def _stats(rows: np.ndarray) -> tuple[int, np.ndarray, np.ndarray]:
+    mean = rows.mean(axis=0)
+    dev = rows - mean
+    return len(rows), mean, dev.T @ dev
+
+
+def _ols(rows: np.ndarray, target: int, cond):
+    regressors = np.column_stack([np.ones(len(rows)), rows[:, list(cond)]])
+    return sm.OLS(rows[:, target], regressors).fit()
+
+
+def _pair(seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """A reference and a regime with different coefficients, means and noise."""
+    rng = np.random.default_rng(seed)
+    ref = rng.normal(size=(150, 5)) @ rng.normal(size=(5, 5)) + 2.0
+    regime = rng.normal(size=(90, 5)) @ rng.normal(size=(5, 5)) - 1.0
+    return ref, regime
+
+
+@pytest.mark.parametrize("l_size", [0, 1, 2, 3])
+def test_lr_equals_statsmodels_llf(l_size):
+    # LR = 2 (llf_ref + llf_k - llf_union), statsmodels OLS with intercept; chi2 from scipy
+    ref, regime = _pair()
+    rng = np.random.default_rng(l_size)
+    picks = np.array([rng.permutation(5)[: l_size + 1] for _ in range(5)])
+    x, cond = picks[:, 0], picks[:, 1:]
+    res = invariance_lr(*_stats(ref), *_stats(regime), x, cond)
+    union = np.vstack([ref, regime])
+    for i in range(len(x)):
+        fits = [_ols(rows, x[i], cond[i]) for rows in (ref, regime, union)]
+        lr = 2.0 * (fits[0].llf + fits[1].llf - fits[2].llf)
+        # parameters per fit: |S| + 1 coefficients (df_model counts all but the intercept)
+        # and one variance, so the difference of the separate and pooled models is |S| + 2
+        df = fits[2].df_model + 1 + 1
+        assert df == l_size + 2
+        assert res.statistic[i] == pytest.approx(lr, abs=1e-8)
+        assert res.pvalue[i] == pytest.approx(stats.chi2.sf(lr, df), abs=1e-12)
+
+
+def test_reference_pooled_from_several_controls():
+    # pooling two control batches by merge_moments equals fitting on their raw union
+    ref, regime = _pair(1)
+    half = len(ref) // 2
+    n, mean, scatter = merge_moments(*_stats(ref[:half]), *_stats(ref[half:]))
+    res = invariance_lr(n, mean, scatter, *_stats(regime), [0], [[1, 2]])
+    fits = [_ols(rows, 0, [1, 2]) for rows in (ref, regime, np.vstack([ref, regime]))]
+    assert res.statistic[0] == pytest.approx(2 * (fits[0].llf + fits[1].llf - fits[2].llf),
+                                             abs=1e-8)
+
+
+# --------------------------------------------------------------------------- null law
+
+REPS = 2000
+GROUP = 100
+N_REF, N_K = 400, 300
+
+
+def _block_diagonal(blocks: np.ndarray) -> np.ndarray:
+    """(G, q, q) per-repetition scatters -> (G*q, G*q) block-diagonal scatter."""
+    g, q, _ = blocks.shape
+    out = np.zeros((g, q, g, q))
+    idx = np.arange(g)
+    out[idx, :, idx, :] = blocks
+    return out.reshape(g * q, g * q)
+
+
+def _null_groups(seed: int):
+    """Per group of repetitions, the (n, mean, scatter) of the reference and the regime.
+
+    Variables X, S1, S2, W per repetition: the law of S differs between the two regimes,
+    the law of X given S and the law of W do not.
+    """
+    rng = np.random.default_rng(seed)
+    sides = []
+    for n, s_mean, s_scale in ((N_REF, 0.0, 1.0), (N_K, 2.0, 2.5)):
+        s = rng.normal(size=(REPS, n, 2)) * s_scale + s_mean
+        x = 1.0 + s @ np.array([0.7, -1.2]) + 1.5 * rng.normal(size=(REPS, n))
+        w = 2.0 + 3.0 * rng.normal(size=(REPS, n))
+        rows = np.concatenate([x[..., None], s, w[..., None]], axis=2)
+        mean = rows.mean(axis=1)
+        dev = rows - mean[:, None, :]
+        sides.append((n, mean, np.einsum("rni,rnj->rij", dev, dev)))
+    for g in range(0, REPS, GROUP):
+        sl = slice(g, g + GROUP)
+        yield [(n, mean[sl].ravel(), _block_diagonal(scatter[sl])) for n, mean, scatter in sides]
+
+
+def test_null_pvalues_uniform():
+    # scipy.stats.kstest against the uniform law, for S empty and |S| = 2
+    base = 4 * np.arange(GROUP)
+    p_marginal, p_conditional = [], []
+    for ref, regime in _null_groups(seed=4242):
+        p_marginal.append(invariance_lr(*ref, *regime, base + 3, np.zeros((GROUP, 0), int)).pvalue)
+        p_conditional.append(invariance_lr(*ref, *regime, base, np.column_stack([base + 1,
+                                                                                base + 2])).pvalue)
+        # X's marginal law does move with S: the test sees it
+        assert np.mean(invariance_lr(*ref, *regime, base, np.zeros((GROUP, 0), int)).pvalue
+                       < 1e-3) > 0.9
+    for p in (np.concatenate(p_marginal), np.concatenate(p_conditional)):
+        assert p.shape == (REPS,)
+        assert stats.kstest(p, "uniform").pvalue > 0.01
+
+
+# --------------------------------------------------------------------------- edge cases
+
+def test_variance_collapsed_to_zero_is_a_shift():
+    rng = np.random.default_rng(5)
+    ref = rng.normal(size=(80, 3))
+    knockout = rng.normal(size=(60, 3))
+    knockout[:, 0] = 0.0  # X knocked out completely in the regime
+    res = invariance_lr(*_stats(ref), *_stats(knockout), [0, 0, 1], [[1], [2], [2]])
+    assert res.statistic[0] == np.inf and res.pvalue[0] == 0.0
+    assert res.statistic[1] == np.inf and res.pvalue[1] == 0.0
+    assert np.isfinite(res.statistic[2]) and res.pvalue[2] > 0.0
+    # conditioning on the knocked-out variable: a constant regressor, still a valid test
+    res = invariance_lr(*_stats(ref), *_stats(knockout), [1], [[0]])
+    assert np.isfinite(res.statistic[0])
+    # constant in both at the same level: nothing moved (p = 1); at different levels: a shift
+    same = ref.copy()
+    same[:, 0] = 0.0
+    res = invariance_lr(*_stats(same), *_stats(knockout), [0], np.zeros((1, 0), int))
+    assert res.pvalue[0] == 1.0
+    same[:, 0] = 3.0
+    res = invariance_lr(*_stats(same), *_stats(knockout), [0], np.zeros((1, 0), int))
+    assert res.pvalue[0] == 0.0
+
+
+def test_too_few_samples_cannot_reject():
+    rng = np.random.default_rng(6)
+    ref, tiny = rng.normal(size=(50, 5)), rng.normal(size=(3, 5))
+    res = invariance_lr(*_stats(ref), *_stats(tiny), [0], [[1, 2]])  # 3 < |S| + 2
+    assert res.pvalue[0] == 1.0 and np.isnan(res.statistic[0])
+
+
+def test_shape_validation():
+    ref, regime = _pair()
+    n, mean, scatter = _stats(ref)
+    with pytest.raises(ValueError, match="scatter_k: expected shape"):
+        invariance_lr(n, mean, scatter, 10, mean, scatter[:3, :3], [0], [[1]])
+    with pytest.raises(ValueError, match="appears twice"):
+        invariance_lr(n, mean, scatter, *_stats(regime), [0], [[0]])
+
+
+# --------------------------------------------------------------------------- response matrix
+
+def test_response_matrix_against_raw_rows():
+    # shift: numpy mean and sd (ddof 1) of the raw rows; p: statsmodels llf with S empty
+    rng = np.random.default_rng(9)
+    samples = {
+        "ctrl1": rng.normal(size=(100, 5)),
+        "kd_A": rng.normal(size=(70, 5)) + np.array([-2.0, 0, 0, 0, 0]),
+        "ctrl2": rng.normal(size=(90, 5)) + 0.1,
+        "oe_C": rng.normal(size=(60, 5)) * np.array([1, 1, 3.0, 1, 1]),
+    }
+    samples["kd_A"][:, 4] = 0.0  # E floored by the knockdown
+    moments = Moments.from_samples(samples, VARIABLES)
+    design = Design(VARIABLES, (Regime("ctrl1", reference=True), Regime("kd_A", ("A",)),
+                                Regime("ctrl2", reference=True), Regime("oe_C", ("C",))))
+    resp = response_matrix(moments, design)
+    assert isinstance(resp, ResponseMatrix)
+    assert resp.regimes == ("kd_A", "oe_C") and resp.shift.shape == (2, 5)
+    ref = np.vstack([samples["ctrl1"], samples["ctrl2"]])
+    for i, name in enumerate(resp.regimes):
+        rows = samples[name]
+        expected = (rows.mean(axis=0) - ref.mean(axis=0)) / ref.std(axis=0, ddof=1)
+        np.testing.assert_allclose(resp.shift[i], expected, rtol=1e-10)
+        for j in range(4):
+            fits = [_ols(r, j, []) for r in (ref, rows, np.vstack([ref, rows]))]
+            lr = 2 * (fits[0].llf + fits[1].llf - fits[2].llf)
+            assert resp.statistic[i, j] == pytest.approx(lr, abs=1e-8)
+            assert resp.pvalue[i, j] == pytest.approx(stats.chi2.sf(lr, 2), abs=1e-12)
+    assert resp.pvalue[0, 4] == 0.0  # a variance collapsed to zero is a shift
+    assert resp.shifted(1e-6)[0, 0] and resp.shifted(1e-6)[1, 2]
+    frame = resp.to_frame()
+    assert list(frame.columns) == ["regime", "variable", "shift", "statistic", "pvalue"]
+    assert len(frame) == 10 and frame.iloc[7]["regime"] == "oe_C"
+    assert frame.iloc[7]["variable"] == "C"
+    assert "kd_A" in resp.summary()

@@ -1,0 +1,160 @@
+"""The test store: sufficient statistics and test results kept in SQLite by input fingerprint."""
+
+from __future__ import annotations
+
+import multiprocessing as mp
+import sqlite3
+
+import numpy as np
+import pytest
+
+from pipeline.independence.base import TestResults
+from pipeline.independence.store import CachedTester, TestStore
+from pipeline.intake.design import Design, Regime
+from pipeline.stats.moments import Moments
+
+
+class CountingTester:
+    """A stand-in tester whose answers are a fixed function of the (unordered) test."""
+
+    def __init__(self, k: int = 3, leave_out: int | None = None) -> None:
+        self.k = k
+        self.leave_out = leave_out
+        self.asked = 0
+        self.batches = 0
+
+    def _answer(self, a, b, cond):
+        a = np.asarray(a, float)
+        b = np.asarray(b, float)
+        s = np.asarray(cond, float).reshape(len(a), -1).sum(axis=1)
+        stat = a + b + 0.125 * s + 1e-3 * a * b
+        left = None
+        if self.leave_out is not None:
+            left = np.zeros((len(a), self.k), dtype=bool)
+            left[:, self.leave_out] = True
+        self.asked += len(a)
+        self.batches += 1
+        return TestResults(stat, 1.0 / (1.0 + stat), left)
+
+    def ci(self, x, y, cond):
+        return self._answer(x, y, cond)
+
+    def invariance(self, regime, x, cond):
+        return self._answer(x, np.full(len(x), len(regime)), cond)
+
+
+def _design():
+    return Design(("A", "B", "C", "D"),
+                  (Regime("ctrl", (), True, True, 10), Regime("kd", ("A",), True, False, 12)),
+                  ("a warning",))
+
+
+def test_inputs_round_trip(tmp_path):
+    rng = np.random.default_rng(0)
+    samples = {"ctrl": rng.normal(size=(10, 4)), "kd": rng.normal(size=(12, 4))}
+    m = Moments.from_samples(samples, ("A", "B", "C", "D"))
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        assert not store.has_inputs("fp1")
+        store.put_inputs("fp1", _design(), m, ["w1"], dropped_rows=3)
+        got = store.get_inputs("fp1")
+        assert store.get_inputs("other") is None
+    assert got.design == _design()
+    assert got.warnings == ["w1"] and got.dropped_rows == 3
+    # bit-identical arrays (np.save keeps float64 exactly)
+    np.testing.assert_array_equal(got.moments.scatter, m.scatter)
+    np.testing.assert_array_equal(got.moments.mean, m.mean)
+    np.testing.assert_array_equal(got.moments.count, m.count)
+    assert got.moments.variables == m.variables and got.moments.regimes == m.regimes
+
+
+def test_cached_ci_computes_only_missing(tmp_path):
+    inner = CountingTester()
+    store = TestStore(tmp_path / "tests.sqlite")
+    t = CachedTester(inner, store, "fp", n_regimes=3)
+    x = np.array([0, 1, 2])
+    y = np.array([1, 2, 3])
+    cond = np.array([[2], [3], [0]])
+    first = t.ci(x, y, cond)
+    assert inner.asked == 3
+    # same tests with the pair swapped: all answered from the store, identical values
+    again = t.ci(y, x, cond)
+    assert inner.asked == 3 and t.reused == 3
+    np.testing.assert_array_equal(first.statistic, again.statistic)
+    np.testing.assert_array_equal(first.pvalue, again.pvalue)
+    # a batch with one new test computes that one only
+    t.ci(np.array([0, 0]), np.array([1, 3]), np.array([[2], [1]]))
+    assert inner.asked == 4 and t.computed == 4 and t.calls == 2
+    # conditioning sets are sets: order does not matter
+    t.ci(np.array([0]), np.array([3]), np.array([[2, 1]]))
+    t.ci(np.array([3]), np.array([0]), np.array([[1, 2]]))
+    assert inner.asked == 5
+    t.flush()
+    assert store.count_tests("fp") == 5
+    store.close()
+
+
+def test_other_fingerprint_never_reuses(tmp_path):
+    store = TestStore(tmp_path / "tests.sqlite")
+    a, b = CountingTester(), CountingTester()
+    for tester, fp in ((a, "fp-a"), (b, "fp-b")):
+        with CachedTester(tester, store, fp, 3) as t:
+            t.ci(np.array([0]), np.array([1]), np.zeros((1, 0), int))
+    assert a.asked == 1 and b.asked == 1
+    assert store.count_tests() == 2
+    store.close()
+
+
+def test_invariance_and_left_out_round_trip(tmp_path):
+    store = TestStore(tmp_path / "tests.sqlite")
+    inner = CountingTester(k=3, leave_out=2)
+    t = CachedTester(inner, store, "fp", 3)
+    x = np.array([0, 1])
+    cond = np.zeros((2, 0), int)
+    r1 = t.invariance("kd", x, cond)
+    t.flush()
+    # a fresh wrapper without an inner tester answers from the file alone
+    r2 = CachedTester(None, TestStore(tmp_path / "tests.sqlite"), "fp", 3).invariance("kd", x, cond)
+    np.testing.assert_array_equal(r1.statistic, r2.statistic)
+    np.testing.assert_array_equal(r1.left_out, r2.left_out)
+    assert r2.left_out[:, 2].all() and not r2.left_out[:, :2].any()
+    # invariance keys include the regime
+    t.invariance("other", x, cond)
+    assert inner.asked == 4
+    with pytest.raises(LookupError):
+        CachedTester(None, store, "fp", 3).invariance("never", x, cond)
+    store.close()
+
+
+def _writer(path: str, offset: int, n_batches: int, barrier=None) -> None:
+    store = TestStore(path, timeout=120)
+    t = CachedTester(CountingTester(), store, "fp", 3)
+    t.FLUSH_ROWS = 50  # one transaction per batch
+    if barrier is not None:
+        barrier.wait(60)  # both processes write at the same time
+    for b in range(n_batches):
+        x = np.arange(200) + offset
+        y = np.full(200, 100_000 + b)
+        # half of each batch overlaps the other writer's keys
+        x[:100] = np.arange(100)
+        t.ci(x, y, np.zeros((200, 1), int) + b)
+    t.flush()
+    store.close()
+
+
+@pytest.mark.slow
+def test_two_processes_writing_one_store(tmp_path):
+    path = str(tmp_path / "tests.sqlite")
+    TestStore(path).close()
+    ctx = mp.get_context("spawn")
+    barrier = ctx.Barrier(2)
+    procs = [ctx.Process(target=_writer, args=(path, off, 60, barrier)) for off in (1000, 5000)]
+    for p in procs:
+        p.start()
+    for p in procs:
+        p.join(120)
+        assert p.exitcode == 0
+    con = sqlite3.connect(path)
+    assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    # each writer: 60 batches of 100 own keys; plus 60 x 100 shared keys written once
+    assert con.execute("SELECT COUNT(*) FROM tests").fetchone()[0] == 2 * 60 * 100 + 60 * 100
+    con.close()

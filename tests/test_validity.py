@@ -1,0 +1,56 @@
+"""Validity of essential graphs (Andersson, Madigan & Perlman 1997; Hauser & Buhlmann 2012)."""
+
+from __future__ import annotations
+
+import random
+
+import networkx as nx
+
+from pipeline.graphs import essential_graph
+from pipeline.graphs.pdag import PDAG
+from pipeline.graphs.validity import essential_graph_problems
+
+
+def test_directed_cycle_is_named():
+    g = PDAG("ABC")
+    g.add_directed("A", "B")
+    g.add_directed("B", "C")
+    g.add_directed("C", "A")
+    problems = essential_graph_problems(g)
+    assert any("directed cycle" in p and "A -> B -> C -> A" in p for p in problems)
+
+
+def test_non_chordal_four_cycle_is_named():
+    g = PDAG.from_networkx(nx.cycle_graph(["A", "B", "C", "D"]))
+    problems = essential_graph_problems(g)
+    assert len(problems) == 1
+    assert "not chordal" in problems[0]
+    for n in "ABCD":
+        assert n in problems[0]
+
+
+def test_induced_arrow_then_line_is_named():
+    g = PDAG("ABC")
+    g.add_directed("A", "B")
+    g.add_undirected("B", "C")
+    assert essential_graph_problems(g) == [
+        "A -> B - C is an induced subgraph (A and C are not adjacent): B - C should be directed."]
+
+
+def test_partially_directed_cycle():
+    g = PDAG("ABC")
+    g.add_directed("A", "B")
+    g.add_undirected("B", "C")
+    g.add_undirected("C", "A")
+    assert any("partially directed cycle" in p for p in essential_graph_problems(g))
+
+
+def test_computed_essential_graphs_are_valid():
+    rng = random.Random(2)
+    for _ in range(30):
+        n = rng.randint(2, 10)
+        d = nx.DiGraph()
+        d.add_nodes_from(range(n))
+        d.add_edges_from((i, j) for i in range(n) for j in range(i + 1, n) if rng.random() < 0.4)
+        targets = {"r": [rng.randrange(n)]} if rng.random() < 0.5 else {}
+        assert essential_graph_problems(essential_graph(d, targets).graph) == []
