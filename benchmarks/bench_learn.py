@@ -57,6 +57,13 @@ def _machine() -> str:
             f"{platform.python_version()}, numpy {np.__version__}")
 
 
+def _load() -> str:
+    try:
+        return ", ".join(f"{v:.2f}" for v in os.getloadavg())
+    except OSError:
+        return "unknown"
+
+
 def _edges(out: Path) -> list:
     d = json.loads((out / "result.json").read_text())
     return [d["edges"], d["regimes"], d["class_size"], d["warnings"]]
@@ -204,8 +211,8 @@ def main(argv: list[str] | None = None) -> int:
     lines = [f"## bench_learn: learn end to end, the test store, a large run from moments "
              f"({datetime.datetime.now():%Y-%m-%d %H:%M})", "",
              f"- machine: {_machine()}",
-             f"- command: `python benchmarks/bench_learn.py {' '.join(sys.argv[1:])}`".replace(
-                 " `", " `").replace(" `", " `"), ""]
+             f"- command: `{' '.join(['python benchmarks/bench_learn.py', *sys.argv[1:]])}`",
+             f"- load average at start (other work on the machine): {_load()}", ""]
     lines.append("### 1-2. cold learn against read_csv; rerun at a new alpha from the store")
     rows, _ = bench_files(seed=1, repeats=args.repeats, alpha=0.01, new_alpha=0.001, **files)
     lines += rows + [""]

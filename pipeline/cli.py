@@ -78,7 +78,8 @@ def _apply_config(args: argparse.Namespace, rest: Sequence[str]) -> argparse.Nam
         raise InputError(f"--config {path}: not valid TOML ({exc})") from None
     for key, value in table.items():
         if isinstance(value, dict) and key not in COMMANDS:
-            raise InputError(f"--config {path}: unknown section [{key}]; sections are command names")
+            raise InputError(f"--config {path}: unknown section [{key}]; "
+                             "sections are command names")
     # top-level keys apply to every command that has the option; a [command] table to that one
     values = {k: v for k, v in table.items() if not isinstance(v, dict)}
     values.update(table.get(args.command, {}))

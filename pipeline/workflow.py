@@ -259,6 +259,12 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
             intake = Intake(design, moments, fingerprint, 0, list(design.warnings))
         checked = check_intake(intake, alpha=alpha)
 
+    # 3b. a declared target that did not move carries no orienting information for it
+    #     (METHODS.md 4): its intervention node is not joined to it
+    learner_design, dropped = design, []
+    if checked is not None and targets == "declared":
+        learner_design, dropped = _without_failed_targets(design, checked.failed_targets())
+
     # 4. the learner, asking its tests through the store
     tester: Any = GaussianTester(moments, design)
     if store is not None:
@@ -272,7 +278,8 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
 
         bars = Progress(enabled=None if progress else False)
     with bars as report:
-        learned = learn_graph(design, tester, alpha=alpha, max_condition_size=max_condition_size,
+        learned = learn_graph(learner_design, tester, alpha=alpha,
+                              max_condition_size=max_condition_size,
                               targets=targets, collider_rule=collider_rule,
                               progress=report if (progress and report is not None) else None)
     if store is not None:
@@ -280,7 +287,8 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
 
     warnings: list[str] = []
     for w in [*(intake.warnings if intake is not None else design.warnings),
-              *(checked.warnings if checked is not None else ()), *learned.warnings]:
+              *(checked.warnings if checked is not None else ()), *dropped,
+              *learned.warnings]:
         if w not in warnings:
             warnings.append(w)
     run: dict[str, Any] = {}
@@ -292,3 +300,24 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
         run.update(computed=sum(n.values()) if n else None, reused=0)
     return LearnResult(learned=learned, design=design, settings=settings, warnings=warnings,
                        check=checked, run=run)
+
+
+def _without_failed_targets(design: Design,
+                            failed: dict[str, list[str]]) -> tuple[Design, list[str]]:
+    """`design` without the declared targets that did not move, and a note for each."""
+    from dataclasses import replace
+
+    notes: list[str] = []
+    regimes = []
+    for r in design.regimes:
+        gone = [t for t in failed.get(r.name, ()) if t in r.targets]
+        if r.known and not r.reference and gone:
+            r = replace(r, targets=tuple(t for t in r.targets if t not in gone))
+            for t in gone:
+                notes.append(f"regime {r.name}: declared target {t} did not move, so the "
+                             f"learner does not join {r.name}'s intervention node to {t}; "
+                             f"check the perturbation (a failed guide or dose?)")
+        regimes.append(r)
+    if not notes:
+        return design, []
+    return replace(design, regimes=tuple(regimes)), notes

@@ -60,7 +60,7 @@ def test_matches_from_samples_and_merge():
     x = rng.standard_normal((500, 4))
     codes = rng.integers(0, 2, 500)
     one = MomentAccumulator(list("wxyz"), ["r0", "r1"])
-    one.update(codes, x)
+    one.update(codes, np.asfortranarray(x))  # column-major, as pandas gives it
     a = MomentAccumulator(list("wxyz"), ["r0", "r1"])
     b = MomentAccumulator(list("wxyz"), ["r0", "r1"])
     a.update(codes[:123], x[:123])

@@ -43,7 +43,8 @@ def test_config_unknown_key_is_an_input_error(tmp_path, capsys):
 
 
 def test_config_missing_file_and_bad_toml(tmp_path, capsys):
-    assert cli.main(["simulate", "--out", str(tmp_path), "--config", str(tmp_path / "no.toml")]) == 2
+    missing = str(tmp_path / "no.toml")
+    assert cli.main(["simulate", "--out", str(tmp_path), "--config", missing]) == 2
     bad = tmp_path / "bad.toml"
     bad.write_text("nodes = = 3\n")
     assert cli.main(["simulate", "--out", str(tmp_path), "--config", str(bad)]) == 2

@@ -143,3 +143,24 @@ def test_large_exact_integer():
 def test_non_chordal_component_is_rejected():
     with pytest.raises(ValueError, match="not chordal"):
         class_size(PDAG.from_networkx(nx.cycle_graph(4)))
+
+
+def test_clique_tree_subproblems_match_the_direct_search():
+    # the subproblems of each clique, read off the clique tree, are those of the
+    # lexicographic search of Wienobst, Bannach & Liskiewicz (2021)
+    from collections import Counter
+
+    from pipeline.graphs.counting import AMOCounter
+
+    rng = random.Random(13)
+    checked = 0
+    while checked < 40:
+        g = random_chordal(rng, rng.randint(4, 12), 40)
+        if g is None:
+            continue
+        checked += 1
+        p = PDAG.from_networkx(g)
+        c = AMOCounter.of_component(p, p.nodes)
+        full = frozenset(range(len(p)))
+        for _, clique, _, edges in c.clique_weights(full):
+            assert Counter(c.subproblems(full, clique)) == Counter(c.iter_subproblems(full, edges))

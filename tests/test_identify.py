@@ -169,3 +169,27 @@ def test_cli_undirected_source_is_first_in_nodes(tmp_path, capsys, monkeypatch):
         ("B", "A", "undirected")]
     assert d["class_size"] == 2
     assert "DAGs in the class: 2" in capsys.readouterr().out
+
+
+def test_lost_without_matches_recomputing():
+    # the shortcut for regimes no reason cites agrees with recomputing without them
+    import random
+
+    from pipeline.graphs import essential_graph
+
+    rng = random.Random(4)
+    for _ in range(25):
+        n = rng.randint(3, 8)
+        names = [f"V{i}" for i in range(n)]
+        dag = nx.DiGraph()
+        dag.add_nodes_from(names)
+        dag.add_edges_from((names[i], names[j]) for i in range(n) for j in range(i + 1, n)
+                           if rng.random() < 0.4)
+        regs = [Regime("ctrl", reference=True)] + [
+            Regime(f"r{k}", tuple(rng.sample(names, rng.randint(1, 2)))) for k in range(3)]
+        res = identify(dag, design(names, regs))
+        full = set(res.directed_edges)
+        for r in regs[1:]:
+            rest = {x.name: x.targets for x in regs[1:] if x.name != r.name}
+            kept = set(essential_graph(dag, rest).graph.directed_edges())
+            assert res.lost_without[r.name] == len(full - kept)

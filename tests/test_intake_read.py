@@ -288,3 +288,14 @@ def test_too_few_samples_for_the_variables(tmp_path):
     paths, reg = _files(tmp_path, {"d.csv": frame})
     with pytest.raises(InputError, match="too few samples: 6 rows in 3 regimes"):
         read_inputs(paths, reg)
+
+
+@pytest.mark.skipif(_NO_CHECK, reason="the check command is not built yet")
+def test_missing_data_file_through_the_command_line(tmp_path, monkeypatch, capsys):
+    from pipeline.cli import main
+
+    _, reg = _files(tmp_path, {})
+    monkeypatch.chdir(tmp_path)
+    code = main(["check", str(tmp_path / "nope.csv"), "--regimes", str(reg)])
+    err = capsys.readouterr().err
+    assert code == 2 and err.startswith("error:") and "nope.csv" in err

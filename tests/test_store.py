@@ -88,8 +88,13 @@ def test_cached_ci_computes_only_missing(tmp_path):
     t.ci(np.array([0]), np.array([3]), np.array([[2, 1]]))
     t.ci(np.array([3]), np.array([0]), np.array([[1, 2]]))
     assert inner.asked == 5
-    t.flush()
+    # results are written when the next level starts (or on flush): the four of size 1
+    # are in the file, the one of size 2 waits
+    assert store.count_tests("fp") == 4
+    t.ci(np.array([0]), np.array([1]), np.zeros((1, 0), int))
     assert store.count_tests("fp") == 5
+    t.flush()
+    assert store.count_tests("fp") == 6
     store.close()
 
 

@@ -8,7 +8,8 @@ two figures say what it contributes:
 * ``oriented``: directed edges whose recorded reason is that regime's intervention node
   (a collider with it, or Meek's rule 1 straight from it);
 * ``lost_without``: directed edges that become undirected when that regime alone is
-  left out (its unique contribution; 0 when other regimes make up for it).
+  left out (its unique contribution; 0 when other regimes make up for it). It costs one
+  more essential graph per regime that ``oriented`` credits with an edge.
 
 References
 ----------
@@ -192,6 +193,11 @@ def identify(dag: nx.DiGraph, design: Design, *, leave_one_out: bool = True) -> 
     if leave_one_out:
         full = set(ess.graph.directed_edges())
         for name in targets:
+            if not oriented[name]:
+                # no recorded reason uses F_name (only colliders and R1 can), so the same
+                # orientations are derived without it
+                lost[name] = 0
+                continue
             rest = {k: v for k, v in targets.items() if k != name}
             lost[name] = len(full - set(essential_graph(dag, rest).graph.directed_edges()))
     return IdentifyResult(design=design, essential=ess, class_size=ess.class_size(),

@@ -21,7 +21,13 @@ import networkx as nx
 import pandas as pd
 
 from pipeline.evidence.schema import EdgeRecord, RegimeRecord, ResultRecord
-from pipeline.evidence.tables import edge_records, edges_frame, removed_frame, to_csv
+from pipeline.evidence.tables import (
+    edge_records,
+    edges_csv,
+    edges_frame,
+    removed_csv,
+    removed_frame,
+)
 from pipeline.fileio import write_text
 from pipeline.graphs.pdag import PDAG
 from pipeline.intake.design import Design
@@ -215,8 +221,8 @@ class LearnResult:
         folder = Path(folder)
         # 1. render everything first: a failure here leaves the folder untouched
         texts = {"result.json": self.record().to_json(),
-                 "edges.csv": to_csv(self.edges),
-                 "removed.csv": to_csv(self.removed),
+                 "edges.csv": edges_csv(self.edge_records),
+                 "removed.csv": removed_csv(self.learned),
                  "graph.graphml": self.graphml(),
                  "report.html": render_report(self)}
         # 2. move the files of the earlier run aside, 3. write each file atomically

@@ -22,7 +22,7 @@ from pipeline.intake.design import Design
 from pipeline.learner.evidence import Learned
 
 __all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "removed_frame",
-           "to_csv"]
+           "edges_csv", "removed_csv", "to_csv"]
 
 EDGE_COLUMNS = ("source", "target", "orientation", "rule", "via", "p_adjacency",
                 "p_orientation", "conflict", "bootstrap_adjacency", "bootstrap_orientation",
@@ -142,17 +142,33 @@ def removed_frame(learned: Learned) -> pd.DataFrame:
 def to_csv(frame: pd.DataFrame) -> str:
     """CSV text of a table: list cells joined by ``;``, None and NaN as empty cells.
 
-    Floats are written in their shortest exact form (``repr``), so nothing is rounded.
+    Floats are written in their shortest exact form, so nothing is rounded.
     """
-    def cell(v: object) -> object:
-        if isinstance(v, (list, tuple)):
-            return ";".join(map(str, v))
-        if v is None or (isinstance(v, float) and v != v):
-            return ""
-        return v
+    return _csv(frame.columns, frame.itertuples(index=False, name=None))
 
+def _cell(v: object) -> object:
+    if isinstance(v, (list, tuple)):
+        return ";".join(map(str, v))
+    if v is None or (isinstance(v, float) and v != v):
+        return ""
+    return v
+
+
+def _csv(header: Iterable[str], rows: Iterable[Iterable[object]]) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(list(frame.columns))
-    w.writerows([cell(v) for v in row] for row in frame.itertuples(index=False, name=None))
+    w.writerow(list(header))
+    w.writerows([_cell(v) for v in row] for row in rows)
     return buf.getvalue()
+
+
+def edges_csv(records: Iterable[EdgeRecord]) -> str:
+    """``edges.csv``: one row per edge record, columns `EDGE_COLUMNS`."""
+    return _csv(EDGE_COLUMNS, ([getattr(r, c) for c in EDGE_COLUMNS] for r in records))
+
+
+def removed_csv(learned: Learned) -> str:
+    """``removed.csv``: one row per non-adjacent pair, columns `REMOVED_COLUMNS`."""
+    return _csv(REMOVED_COLUMNS, ((r.x, r.y, r.separating_set, _num(r.pvalue), _num(r.statistic),
+                                   int(r.level), r.regime or "", r.notes)
+                                  for r in learned.removed))

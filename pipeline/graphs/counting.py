@@ -15,8 +15,11 @@ the orders pi that start with a set already counted at an earlier clique gives
     #AMO(G) = sum over cliques C of phi(C, FP(C)) * prod over subproblems H of #AMO(H),
 
 with phi(C, FP) the number of orders of C that start with none of the sets in FP. The
-counts are exact Python integers and subproblems are memoized. Known values: a
-complete graph on n nodes has n! AMOs, a tree on n nodes has n [3]_.
+subproblems of C split over the clique-tree edges out of C, and those behind an edge
+C -> D depend on that edge only, so they are computed once per edge, from the edges
+further out, rather than by one search per clique. The counts are exact Python integers
+and subproblems are memoized. Known values: a complete graph on n nodes has n! AMOs, a
+tree on n nodes has n [3]_.
 
 >>> from pipeline.graphs.pdag import PDAG
 >>> g = PDAG("ABCD"); g.add_undirected("A", "B"); g.add_undirected("B", "C")
@@ -122,6 +125,7 @@ class AMOCounter:
         self._memo: dict[frozenset, int] = {}
         self._detail: dict[frozenset, list[tuple]] = {}
         self._kind: dict[frozenset, str] = {}
+        self._info: dict[frozenset, dict] = {}
 
     @classmethod
     def of_component(cls, g: PDAG, comp: list[Node]) -> AMOCounter:
@@ -164,23 +168,25 @@ class AMOCounter:
         return hit
 
     def clique_weights(self, nodes: frozenset) -> list[tuple[int, list[int], list[frozenset],
-                                                             list[frozenset]]]:
-        """Per maximal clique (breadth-first over the clique tree): ``(weight, clique, FP, subs)``.
+                                                             list[tuple[int, int]]]]:
+        """Per maximal clique (breadth-first over the clique tree): ``(weight, C, FP, edges)``.
 
-        The weight is the number of AMOs counted at that clique; FP lists the separators
-        on the clique's path from the root that lie inside it, smallest first (nested);
-        subs lists the subproblems in the order the search visits them.
+        The weight is the number of AMOs counted at clique C; FP lists the separators on
+        C's path from the root that lie inside it, smallest first (nested); `edges` are
+        the clique-tree edges out of C, whose branches hold C's subproblems (see
+        `iter_subproblems`).
         """
         hit = self._detail.get(nodes)
         if hit is not None:
             return hit
         cliques, parent = clique_tree(self.adj, nodes)
+        info, nb = self._branches(cliques, parent)
+        self._info[nodes] = info
         out = []
         for c in _bfs(parent):
             clique = cliques[c]
             cset = set(clique)
             # FP: the separators on the path from the root that lie inside the clique
-            # (nested, so their sizes say it all)
             fp: dict[int, frozenset] = {}
             b, a = c, parent[c]
             while a >= 0 and not cset.isdisjoint(cliques[a]):
@@ -191,16 +197,86 @@ class AMOCounter:
                     fp[len(sep)] = frozenset(sep)
                 b, a = a, parent[a]
             weight = phi(len(clique), sorted(fp))
-            subs = self.subproblems(nodes, clique)
-            for h in subs:
-                weight *= self.count(h)
-            out.append((weight, clique, [fp[k] for k in sorted(fp)], subs))
+            edges = [(c, d) for d in nb[c]]
+            for e in edges:
+                weight *= info[e][0]
+            out.append((weight, clique, [fp[k] for k in sorted(fp)], edges))
         self._detail[nodes] = out
         return out
 
-    # -- subproblems ------------------------------------------------------------------
+    def _branches(self, cliques: list[list[int]], parent: list[int]) -> tuple[dict, list]:
+        """For every directed clique-tree edge C -> D: the subproblems on D's side.
+
+        With C first, the vertices on D's side adjacent to all of S = C & D (the union of
+        the cliques containing S reached from D, minus S) form one block of the search in
+        `subproblems`; the rest of D's side hangs off that block through clique-tree
+        edges E -> F (E contains S, F does not) and is the same problem again for E -> F.
+        Returns ``{(C, D): (product of counts, block components, [(E, F), ...])}`` and the
+        clique-tree neighbours; down edges are filled bottom-up, then up edges top-down.
+        """
+        k = len(cliques)
+        nb: list[list[int]] = [[] for _ in range(k)]
+        for c, p in enumerate(parent):
+            if p >= 0:
+                nb[c].append(p)
+                nb[p].append(c)
+        csets = [frozenset(q) for q in cliques]
+        info: dict[tuple[int, int], tuple[int, list[frozenset], list[tuple[int, int]]]] = {}
+
+        def fill(c: int, d: int) -> None:
+            sep = csets[c] & csets[d]
+            tree, seen, bound = [d], {c, d}, []
+            i = 0
+            while i < len(tree):
+                e = tree[i]
+                i += 1
+                for f in nb[e]:
+                    if f not in seen:
+                        seen.add(f)
+                        if sep <= csets[f]:
+                            tree.append(f)
+                        else:
+                            bound.append((e, f))
+            block = set().union(*(csets[e] for e in tree)) - sep
+            comps = ([frozenset(block)] if len(block) == 1
+                     else self.components(frozenset(block)))
+            total = 1
+            for h in comps:
+                total *= self.count(h)
+            for e in bound:
+                total *= info[e][0]
+            info[(c, d)] = (total, comps, bound)
+
+        order = _bfs(parent)
+        for d in reversed(order):  # C -> D downwards, deepest first
+            if parent[d] >= 0:
+                fill(parent[d], d)
+        for c in order:  # D -> parent upwards, from the root
+            if parent[c] >= 0:
+                fill(c, parent[c])
+        return info, nb
+
+    def iter_subproblems(self, nodes: frozenset, edges: list[tuple[int, int]]):
+        """Yield the subproblems behind clique-tree `edges` in an order the search allows.
+
+        Each block comes before the branches that hang off it, so directing every edge
+        between different subproblems along this order, and the clique first, gives the
+        AMO that the subproblems' own orders complete.
+        """
+        info = self._info[nodes]
+        stack = list(reversed(edges))
+        while stack:
+            _, comps, bound = info[stack.pop()]
+            yield from comps
+            stack.extend(reversed(bound))
+
+    # -- subproblems, directly ----------------------------------------------------------
     def subproblems(self, nodes: frozenset, start: list[int]) -> list[frozenset]:
         """The subproblems left when the clique `start` comes first, in visiting order.
+
+        The direct definition [2]_, linear per clique; counting and sampling get the same
+        subproblems from the clique tree (`_branches`), which shares work between
+        cliques. Kept as the reference the tests compare with.
 
         A lexicographic breadth-first search (partition refinement: the unvisited
         vertices form an ordered list of classes, and visiting x splits every class into

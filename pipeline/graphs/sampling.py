@@ -22,6 +22,7 @@ References
 from __future__ import annotations
 
 import itertools
+import operator
 import random
 from collections.abc import Hashable, Iterator
 
@@ -73,7 +74,11 @@ def sample_dags(g: PDAG, n: int, seed: int | None = None) -> list[nx.DiGraph]:
     ValueError
         If `n` is negative or a chain component is not chordal.
     """
-    if not isinstance(n, int) or n < 0:
+    try:
+        n = operator.index(n)
+    except TypeError:
+        raise ValueError(f"n should be a non-negative integer, got {n!r}") from None
+    if n < 0:
         raise ValueError(f"n should be a non-negative integer, got {n!r}")
     counters = _check(g)
     rng = random.Random(seed)
@@ -107,7 +112,7 @@ def _sample_order(c: AMOCounter, nodes: frozenset, rng: random.Random) -> list[i
     while r >= detail[k][0]:
         r -= detail[k][0]
         k += 1
-    _, clique, fp, subs = detail[k]
+    _, clique, fp, edges = detail[k]
     # Step 2: an order of the clique starting with no set of FP (rejection: uniform)
     while True:
         pi = list(clique)
@@ -116,7 +121,7 @@ def _sample_order(c: AMOCounter, nodes: frozenset, rng: random.Random) -> list[i
             break
     # Step 3: the subproblems, each drawn independently, in visiting order
     order = pi
-    for h in subs:
+    for h in c.iter_subproblems(nodes, edges):
         order.extend(_sample_order(c, h, rng))
     return order
 
@@ -184,7 +189,8 @@ def _orders_of(c: AMOCounter, nodes: frozenset) -> Iterator[list[int]]:
     if len(nodes) == 1:
         yield list(nodes)
         return
-    for _, clique, fp, subs in c.clique_weights(nodes):
+    for _, clique, fp, edges in c.clique_weights(nodes):
+        subs = list(c.iter_subproblems(nodes, edges))
         for pi in itertools.permutations(sorted(clique)):
             if any(set(pi[:len(s)]) == s for s in fp):
                 continue

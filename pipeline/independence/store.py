@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import io
 import json
+import operator
 import sqlite3
 import time
 from collections.abc import Iterable
@@ -253,7 +254,7 @@ class TestStore:
             "SELECT x, y, cond, statistic, pvalue, left_out FROM tests "
             "WHERE fid = ? AND kind = ? AND regime = ? AND size = ?",
             (fid, kind, regime, int(size))).fetchall()
-        return {(x, y, c): (s, p, lo) for x, y, c, s, p, lo in rows}
+        return dict(zip(map(_KEY, rows), map(_VALUE, rows), strict=True))
 
     def insert(self, rows: list[tuple]) -> None:
         """Write rows ``(fid, kind, regime, size, x, y, cond, statistic, pvalue, left_out)``
@@ -261,6 +262,10 @@ class TestStore:
         if rows:
             self._write(lambda c: c.executemany(
                 "INSERT OR IGNORE INTO tests VALUES (?,?,?,?,?,?,?,?,?,?)", rows))
+
+
+_KEY = operator.itemgetter(0, 1, 2)
+_VALUE = operator.itemgetter(3, 4, 5)
 
 
 def _cond_keys(cond: np.ndarray) -> list[str]:
@@ -372,17 +377,20 @@ class CachedTester:
                                                                         size)
         # 1. answer from the store what it holds
         xs, ys, keys = x.tolist(), y.tolist(), _cond_keys(cond)
-        missing: list[int] = [] if known else list(range(m))
-        for i, key in enumerate(zip(xs, ys, keys, strict=True) if known else ()):
-            hit = known.get(key)
-            if hit is None:
-                missing.append(i)
-                continue
-            s, p, lo = hit
-            stat[i] = np.nan if s is None else s
-            pval[i] = np.nan if p is None else p
-            if lo:
-                left[i] = _text_to_mask(lo, k)
+        if known:
+            hits = list(map(known.get, zip(xs, ys, keys, strict=True)))
+            missing = [i for i, h in enumerate(hits) if h is None]
+            found = [i for i, h in enumerate(hits) if h is not None]
+            if found:
+                got = [hits[i] for i in found]
+                # None (a NaN stored as NULL) becomes NaN again
+                stat[found] = np.array([g[0] for g in got], dtype=float)
+                pval[found] = np.array([g[1] for g in got], dtype=float)
+                for i, g in zip(found, got, strict=True):
+                    if g[2]:
+                        left[i] = _text_to_mask(g[2], k)
+        else:
+            missing = list(range(m))
         self.reused += m - len(missing)
         if not missing:
             return TestResults(stat, pval, left if left.any() else None)

@@ -50,7 +50,7 @@ class Design:
         raise KeyError(name)
 
     def reference_targets(self) -> frozenset[str]:
-        """Targets shared by the reference (empty unless ``--reference`` named a regime with some)."""
+        """Targets of the reference (empty unless ``--reference`` named a regime with some)."""
         out: set[str] = set()
         for r in self.reference:
             out.update(r.targets)

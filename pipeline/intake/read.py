@@ -20,6 +20,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import threading
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
@@ -40,7 +41,7 @@ from pipeline.intake.tables import (
     resolve_variables,
 )
 from pipeline.stats.accumulate import MomentAccumulator
-from pipeline.stats.fingerprint import fingerprint_inputs
+from pipeline.stats.fingerprint import _fingerprint, statistics_options
 from pipeline.stats.moments import Moments
 from pipeline.stats.ranks import normal_scores
 
@@ -172,9 +173,10 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
     # release the GIL)
     with ThreadPoolExecutor(max_workers=1) as hasher, \
             ThreadPoolExecutor(max_workers=1) as worker:
-        fp = hasher.submit(fingerprint_inputs, paths, regimes_path, regime_column=regime_column,
-                           ignore_columns=ignore, drop_missing=drop_missing, reference=reference,
-                           test=test)
+        stop = threading.Event()  # set on failure: the hasher gives up at its next block
+        fp = hasher.submit(_fingerprint, paths, regimes_path, statistics_options(
+            regime_column=regime_column, ignore_columns=ignore, drop_missing=drop_missing,
+            reference=reference, test=test), stop)
         # 2. one streaming pass over every file
         state = _Pass(variables, names, index, drop_missing, keep_rows=test == "rank")
         bar = _progress(progress)
@@ -199,6 +201,9 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
                 if rows == 0:
                     raise InputError(f"data file {header.path}: has a header but no data rows; "
                                      f"add the measurements or leave the file out")
+        except BaseException:
+            stop.set()
+            raise
         finally:
             if bar is not None:
                 bar.stop()

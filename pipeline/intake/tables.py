@@ -15,6 +15,7 @@ spaces stripped; only an empty cell is a missing label).
 from __future__ import annotations
 
 import csv
+import warnings
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -212,7 +213,13 @@ def _csv_chunks(header: TableHeader, variables: list[str], regime_column: str,
     start = 0
     try:
         with reader:
-            for frame in reader:
+            while True:
+                with warnings.catch_warnings():
+                    # a text cell makes the parser warn about mixed types: we report it ourselves
+                    warnings.simplefilter("ignore", pd.errors.DtypeWarning)
+                    frame = next(reader, None)
+                if frame is None:
+                    break
                 values = _numeric_block(header, frame, variables, start)
                 labels, codes = _labels(frame[regime_column])
                 yield Chunk(start, labels, codes, values)

@@ -133,7 +133,10 @@ class MomentAccumulator:
                 sorted_codes, xs, owned = codes, x, False
             else:
                 order = np.argsort(codes, kind="stable")
-                sorted_codes, xs = codes[order], x[order]
+                sorted_codes = codes[order]
+                # np.take along the contiguous axis is about twice as fast as x[order]
+                xs = np.take(x.T, order, axis=1).T if x.flags.f_contiguous \
+                    else np.take(x, order, axis=0)
                 owned = True  # xs is our copy: centre it in place
             starts = np.flatnonzero(np.r_[True, sorted_codes[1:] != sorted_codes[:-1]])
             ends = np.r_[starts[1:], n]

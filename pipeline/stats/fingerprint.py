@@ -35,7 +35,11 @@ def statistics_options(*, regime_column: str = "regime", ignore_columns: Sequenc
             "test": str(test)}
 
 
-def _hash_file(h: hashlib._Hash, path: Path, role: bytes) -> None:
+class _Stopped(Exception):
+    """Hashing was abandoned (the caller failed and no longer needs the fingerprint)."""
+
+
+def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
     try:
         size = path.stat().st_size
         fh = open(path, "rb")  # noqa: SIM115 - read-only, closed below
@@ -44,6 +48,8 @@ def _hash_file(h: hashlib._Hash, path: Path, role: bytes) -> None:
     with fh:
         h.update(role + b"\0" + str(size).encode() + b"\0")
         while block := fh.read(_BLOCK):
+            if stop is not None and stop.is_set():
+                raise _Stopped
             h.update(block)
 
 
@@ -62,13 +68,21 @@ def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
     InputError
         If a file cannot be read.
     """
+    options = statistics_options(regime_column=regime_column, ignore_columns=ignore_columns,
+                                 drop_missing=drop_missing, reference=reference, test=test)
+    return _fingerprint(data, regimes, options)
+
+
+def _fingerprint(data, regimes, options: dict, stop=None) -> str | None:
+    """The fingerprint; None if the `stop` event (a threading.Event) was set meanwhile."""
     if isinstance(data, (str, Path)):
         data = [data]
     h = hashlib.sha256(_FORMAT + b"\0")
-    for path in data:
-        _hash_file(h, Path(path), b"data")
-    _hash_file(h, Path(regimes), b"regimes")
-    options = statistics_options(regime_column=regime_column, ignore_columns=ignore_columns,
-                                 drop_missing=drop_missing, reference=reference, test=test)
+    try:
+        for path in data:
+            _hash_file(h, Path(path), b"data", stop)
+        _hash_file(h, Path(regimes), b"regimes", stop)
+    except _Stopped:
+        return None
     h.update(json.dumps(options, sort_keys=True).encode())
     return h.hexdigest()
