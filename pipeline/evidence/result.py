@@ -143,16 +143,9 @@ class LearnResult:
 
     def graphml(self) -> str:
         """GraphML text: each edge once (undirected ones from the earlier node)."""
-        d = nx.DiGraph()
-        d.add_nodes_from(self.design.variables, kind="variable")
-        for e in self.edge_records:
-            attrs: dict[str, Any] = {"orientation": e.orientation, "rule": e.rule,
-                                     "via": ";".join(e.via), "conflict": bool(e.conflict)}
-            for key in ("p_adjacency", "p_orientation"):
-                if getattr(e, key) is not None:
-                    attrs[key] = float(getattr(e, key))
-            d.add_edge(e.source, e.target, **attrs)
-        return "\n".join(nx.generate_graphml(d)) + "\n"
+        from pipeline.evidence.graphml import graphml_text
+
+        return graphml_text(self.design.variables, self.edge_records)
 
     # -- text -----------------------------------------------------------------------------------
     def summary(self) -> str:

@@ -1,0 +1,53 @@
+"""GraphML (an open XML standard for graphs) of a result's edges, written directly.
+
+Each edge of the result appears once: a directed edge from its source to its target, an
+undirected edge from the node that comes first, marked ``orientation = undirected``.
+Edge data: orientation, rule, via (``;``-joined), conflict, p_adjacency, p_orientation
+(omitted when absent). Node data: kind (``variable``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from xml.sax.saxutils import escape, quoteattr
+
+from pipeline.evidence.schema import EdgeRecord
+
+__all__ = ["graphml_text"]
+
+_KEYS = (  # id, owner, name, type
+    ("d0", "node", "kind", "string"),
+    ("d1", "edge", "orientation", "string"),
+    ("d2", "edge", "rule", "string"),
+    ("d3", "edge", "via", "string"),
+    ("d4", "edge", "conflict", "boolean"),
+    ("d5", "edge", "p_adjacency", "double"),
+    ("d6", "edge", "p_orientation", "double"),
+)
+
+
+def graphml_text(nodes: Sequence[str], edges: Iterable[EdgeRecord]) -> str:
+    """Return the GraphML document of `nodes` and `edges` as text."""
+    out = ['<?xml version="1.0" encoding="utf-8"?>',
+           '<graphml xmlns="http://graphml.graphdrawing.org/xmlns" '
+           'xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" '
+           'xsi:schemaLocation="http://graphml.graphdrawing.org/xmlns '
+           'http://graphml.graphdrawing.org/xmlns/1.0/graphml.xsd">']
+    out += [f'  <key id="{k}" for="{owner}" attr.name="{name}" attr.type="{kind}" />'
+            for k, owner, name, kind in _KEYS]
+    out.append('  <graph edgedefault="directed">')
+    for n in nodes:
+        out.append(f'    <node id={quoteattr(str(n))}><data key="d0">variable</data></node>')
+    for e in edges:
+        data = [f'<data key="d1">{escape(e.orientation)}</data>',
+                f'<data key="d2">{escape(e.rule)}</data>',
+                f'<data key="d3">{escape(";".join(e.via))}</data>',
+                f'<data key="d4">{"true" if e.conflict else "false"}</data>']
+        if e.p_adjacency is not None:
+            data.append(f'<data key="d5">{float(e.p_adjacency)!r}</data>')
+        if e.p_orientation is not None:
+            data.append(f'<data key="d6">{float(e.p_orientation)!r}</data>')
+        out.append(f'    <edge source={quoteattr(str(e.source))} '
+                   f'target={quoteattr(str(e.target))}>{"".join(data)}</edge>')
+    out += ["  </graph>", "</graphml>", ""]
+    return "\n".join(out)
