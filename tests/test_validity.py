@@ -54,3 +54,20 @@ def test_computed_essential_graphs_are_valid():
         d.add_edges_from((i, j) for i in range(n) for j in range(i + 1, n) if rng.random() < 0.4)
         targets = {"r": [rng.randrange(n)]} if rng.random() < 0.5 else {}
         assert essential_graph_problems(essential_graph(d, targets).graph) == []
+
+
+def test_named_chordless_cycles_are_chordless():
+    # the cycle named induces a cycle graph in networkx (no chord), length >= 4
+    from pipeline.graphs.validity import _chordless_cycle
+
+    rng = random.Random(8)
+    found = 0
+    while found < 30:
+        g = nx.gnp_random_graph(rng.randint(5, 40), rng.uniform(0.05, 0.4),
+                                seed=rng.randrange(10**6))
+        if nx.is_chordal(g):
+            continue
+        found += 1
+        cyc = _chordless_cycle(g)
+        assert len(cyc) >= 4
+        assert nx.is_isomorphic(g.subgraph(cyc), nx.cycle_graph(len(cyc)))

@@ -37,12 +37,14 @@ def run(args: argparse.Namespace) -> int:
     dag = read_dag_csv(args.dag, extra_nodes=extra)
     design = Design(variables=tuple(str(n) for n in dag.nodes), regimes=tuple(regimes))
     result = identify(dag, design)
-    console = Console()
-    result.print(console)
-    if args.out:
+    path = None
+    if args.out:  # written before printing, so a closed terminal pipe cannot lose it
         settings = {"dag": Path(args.dag).name, "regimes": Path(args.regimes).name}
         if args.reference:
             settings["reference"] = args.reference
         path = write_text(args.out, result.record(settings).to_json())
+    console = Console()
+    result.print(console)
+    if path is not None:
         console.print(f"wrote {path}")
     return 0

@@ -24,6 +24,8 @@ References
 
 from __future__ import annotations
 
+import itertools
+from collections import deque
 from collections.abc import Hashable
 
 import networkx as nx
@@ -86,10 +88,11 @@ def essential_graph_problems(g: PDAG) -> list[str]:
             pass
 
     # Step 2: every chain component chordal
+    whole = g.undirected_graph()
     for comp in comps:
         if len(comp) < 4:
             continue
-        und = g.undirected_graph().subgraph(comp) if len(comps) > 1 else g.undirected_graph()
+        und = whole.subgraph(comp)
         if not nx.is_chordal(und):
             cyc = _chordless_cycle(und)
             problems.append(f"the undirected part containing {comp[0]} is not chordal: "
@@ -113,8 +116,62 @@ def _path(cycle: list[tuple[Node, Node]]) -> str:
 
 
 def _chordless_cycle(und: nx.Graph) -> list[Node]:
-    """One chordless cycle of length >= 4 of a non-chordal graph."""
-    for cyc in nx.chordless_cycles(und):
-        if len(cyc) >= 4:
-            return list(cyc)
+    """One chordless cycle of length >= 4 of a non-chordal graph.
+
+    For a vertex v and two non-adjacent neighbours u, w, a shortest u-w path that avoids
+    v's other neighbours closes a chordless cycle through v. Every chordless cycle has
+    such a triple, so trying the triples (those of the vertices most likely to be on one
+    first: where a maximum cardinality search order fails to be a perfect elimination
+    order) always finds one.
+    """
+    for v in _suspects(und):
+        nbrs = set(und[v])
+        for u, w in itertools.combinations(sorted(nbrs, key=str), 2):
+            if und.has_edge(u, w):
+                continue
+            path = _shortest_path_avoiding(und, u, w, nbrs | {v})
+            if path is not None:
+                return [v, *path]
     raise AssertionError("a non-chordal graph has a chordless cycle of length 4 or more")
+
+
+def _suspects(und: nx.Graph) -> list[Node]:
+    """Vertices in a useful order: the first failure of a perfect elimination order first."""
+    order: list[Node] = []
+    pos: dict[Node, int] = {}
+    label = dict.fromkeys(und, 0)
+    first = None
+    while len(order) < len(label):
+        v = max((x for x in label if x not in pos), key=label.__getitem__)
+        pos[v] = len(order)
+        order.append(v)
+        earlier = [x for x in und[v] if x in pos and x != v]
+        if first is None and len(earlier) > 1:
+            last = max(earlier, key=pos.__getitem__)
+            if any(x != last and not und.has_edge(x, last) for x in earlier):
+                first = v
+        for x in und[v]:
+            if x not in pos:
+                label[x] += 1
+        if first is not None:
+            break
+    return ([first] if first is not None else []) + [x for x in und if x != first]
+
+
+def _shortest_path_avoiding(und: nx.Graph, u: Node, w: Node, avoid: set) -> list[Node] | None:
+    """A shortest u-w path whose inner vertices are not in `avoid` (breadth-first)."""
+    prev = {u: None}
+    queue = deque([u])
+    while queue:
+        x = queue.popleft()
+        for y in und[x]:
+            if y in prev or (y in avoid and y != w):
+                continue
+            prev[y] = x
+            if y == w:
+                path = [w]
+                while prev[path[-1]] is not None:
+                    path.append(prev[path[-1]])
+                return path[::-1]
+            queue.append(y)
+    return None
