@@ -14,7 +14,6 @@ import pytest
 from pipeline.errors import InputError
 from pipeline.evidence.identify import identify
 from pipeline.evidence.schema import ResultRecord
-from pipeline.intake.dag import read_dag_csv
 from pipeline.intake.design import Design, Regime
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -75,33 +74,6 @@ def test_identify_warns_known_no():
 
 
 # -- the dag.csv reader -------------------------------------------------------------------
-def test_read_dag_nodes_and_duplicates(tmp_path):
-    p = write(tmp_path / "dag.csv", "source,target,weight\nA,B,1\n B ,C,2\nA,B,3\n")
-    g = read_dag_csv(p, extra_nodes=["D", "A"])
-    assert list(g.nodes) == ["A", "B", "C", "D"]
-    assert set(g.edges) == {("A", "B"), ("B", "C")}
-    assert len(g.graph["warnings"]) == 1 and "line 4" in g.graph["warnings"][0]
-
-
-@pytest.mark.parametrize("text, match", [
-    ("from,to\nA,B\n", "no 'source' column"),
-    ("source,target\nA,A\n", "self-loop"),
-    ("source,target\nA,B\nB,C\nC,A\n", "directed cycle A -> B -> C -> A"),
-    ("source,target\nA,\n", "target is empty"),
-    ("", "is empty"),
-])
-def test_read_dag_errors(tmp_path, text, match):
-    p = write(tmp_path / "dag.csv", text)
-    with pytest.raises(InputError, match=match):
-        read_dag_csv(p)
-
-
-def test_read_dag_missing_file(tmp_path):
-    with pytest.raises(InputError, match="no such file"):
-        read_dag_csv(tmp_path / "nope.csv")
-
-
-# -- the command line ---------------------------------------------------------------------
 def test_cli_writes_contract_json(tmp_path):
     write(tmp_path / "dag.csv", "source,target\nX1,X2\nX2,X3\nX2,X4\n")
     write(tmp_path / "regimes.csv", "regime,targets\nctrl,\nkd2,X2\nkd5,X5\n")

@@ -11,6 +11,8 @@ import html
 import math
 from typing import Any
 
+from pipeline.report.drawing import graph_section
+
 __all__ = ["render_report", "CAUTIONS"]
 
 CAUTIONS = (
@@ -91,6 +93,10 @@ def render_report(result: Any) -> str:
     if not result.valid:
         parts.append("<p class=\"bad\">The learned graph is not a valid essential graph: "
                      + _e("; ".join(learned.problems)) + "</p>")
+
+    # drawing
+    parts.append("<h2>Graph</h2>")
+    parts.append(graph_section(design.variables, result.edge_records))
 
     # edges
     rows = []
