@@ -12,6 +12,7 @@ from rich.table import Table
 
 from pipeline.errors import InputError
 from pipeline.evidence.check import MOVED, CheckResult, check
+from pipeline.evidence.formatting import format_p
 
 HELP = "check the inputs and whether each perturbation moved its targets, before learning"
 
@@ -81,7 +82,7 @@ def print_result(result: CheckResult, console: Console) -> None:
         for c in result.targets:
             colour = "green" if c.verdict == MOVED else ("red" if c.known else "yellow")
             name = c.target if c.known else f"{c.target} (hint)"
-            t.add_row(c.regime, name, _fmt(c.shift), f"{c.pvalue:.2g}",
+            t.add_row(c.regime, name, _fmt(c.shift), format_p(c.pvalue),
                       f"[{colour}]{c.verdict}[/{colour}]")
         console.print(t)
 
@@ -98,7 +99,7 @@ def print_result(result: CheckResult, console: Console) -> None:
         differing = c.differing
         for i, name in enumerate(c.regimes):
             bad = differing[name]
-            t.add_row(name, str(result.samples.get(name, 0)), f"{c.adjusted[i].min():.2g}",
+            t.add_row(name, str(result.samples.get(name, 0)), format_p(float(c.adjusted[i].min())),
                       f"[red]{', '.join(bad)}[/red]" if bad else "[green]-[/green]")
         console.print(t)
         verdict = "[green]agree[/green]" if c.agree else "[red]differ[/red]"

@@ -6,7 +6,6 @@ import argparse
 from pathlib import Path
 
 from rich.console import Console
-from rich.markup import escape
 
 import pipeline
 from pipeline.errors import InputError
@@ -61,6 +60,4 @@ def run(args: argparse.Namespace) -> int:
             ).nodes))
         print_scores(scores, console)
     print_files(out, console)
-    console.print(f"[bold]open the report:[/bold] {escape(str((out / 'report.html').resolve()))}",
-                  highlight=False)
     return 0

@@ -10,6 +10,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from pipeline.errors import InputError
+from pipeline.evidence.formatting import format_p
 from pipeline.evidence.result import LearnResult
 from pipeline.progress import Progress
 from pipeline.workflow import COLLIDER_RULES, STORE_NAME, TARGET_MODES, TESTS, learn
@@ -159,10 +160,9 @@ def print_result(result: LearnResult, console: Console) -> None:
 def print_files(out: Path, console: Console) -> None:
     console.print(f"results in {escape(str(out))}/: result.json, edges.csv, removed.csv, "
                   f"graph.graphml, report.html, {STORE_NAME}", highlight=False)
-    console.print(f"report: {escape(str(out / 'report.html'))}", highlight=False)
+    console.print(f"[bold]report:[/bold] {escape(str((out / 'report.html').resolve()))}",
+                  highlight=False)
 
 
 def _p(v: float | None) -> str:
-    if v is None:
-        return "-"
-    return "< 1e-300" if v == 0 else f"{v:.2g}"
+    return format_p(v)

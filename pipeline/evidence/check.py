@@ -42,6 +42,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.evidence.formatting import format_p
 from pipeline.independence.invariance import ResponseMatrix, invariance_lr, response_matrix
 from pipeline.intake.design import Design
 
@@ -223,7 +224,7 @@ class CheckResult:
         if len(frame):
             frame["known"] = frame["known"].map({True: "yes", False: "no (hint)"})
             frame["shift"] = frame["shift"].map(_fmt)
-            frame["pvalue"] = frame["pvalue"].map(lambda v: f"{v:.2g}")
+            frame["pvalue"] = frame["pvalue"].map(format_p)
             lines.append(frame.to_string(index=False))
         else:
             lines.append("(no declared targets)")
@@ -359,12 +360,12 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
             targets.append(TargetCheck(r.name, t, r.known, s, pv, verdict))
             if verdict == NOT_MOVED and r.known:
                 warnings.append(f"regime {r.name}: declared target {t} did not move (shift "
-                                f"{_fmt(s)} sd, p = {pv:.2g} > {alpha:g}); the intervention may "
-                                f"have failed, and this regime carries no orienting information "
-                                f"for {t}")
+                                f"{_fmt(s)} sd, p = {format_p(pv)} > {alpha:g}); the "
+                                f"intervention may have failed, and this regime carries no "
+                                f"orienting information for {t}")
             elif verdict == NOT_MOVED:
                 warnings.append(f"regime {r.name}: hinted target {t} did not move (shift "
-                                f"{_fmt(s)} sd, p = {pv:.2g}); the targets of this known=no "
+                                f"{_fmt(s)} sd, p = {format_p(pv)}); the targets of this known=no "
                                 f"regime are learned from the data")
         if not np.any(response.pvalue[i] <= alpha):
             warnings.append(f"regime {r.name}: no variable moved at alpha {alpha:g}; the "

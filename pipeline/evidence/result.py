@@ -20,6 +20,7 @@ from typing import Any
 import networkx as nx
 import pandas as pd
 
+from pipeline.evidence.formatting import format_p
 from pipeline.evidence.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.evidence.tables import (
     edge_records,
@@ -247,6 +248,4 @@ def archive_previous(folder: str | Path, names: tuple[str, ...] = _RUN_FILES) ->
 
 
 def _fmt_p(v: float | None) -> str:
-    if v is None or v != v:
-        return "-"
-    return f"{v:.2g}"
+    return format_p(v)

@@ -36,10 +36,12 @@ References
 from __future__ import annotations
 
 import html
+import itertools
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 
+import networkx as nx
 import numpy as np
 
 from pipeline.evidence.schema import EdgeRecord
@@ -65,6 +67,7 @@ _LEGEND = (("intervention", "intervention", True), ("collider", "collider", True
            ("undirected", "undirected", False), ("conflict", "conflict", False))
 _SWEEPS = 4  # barycentre sweeps (down and up) for the crossing reduction
 _PLACE_PASSES = 6  # passes of the horizontal placement
+_FILL = 0.75  # share of a layer's width for nodes; the rest is for edges passing through
 _MAX_LABEL = 18  # characters of a node label; the full name is in the tooltip
 
 
@@ -100,14 +103,17 @@ def graph_svg(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int =
     # 0. sizes by the number of variables
     font = 12 if n <= 100 else (10 if n <= MAX_WITH_ISOLATED else 9)
     style = _Style(font=font, box_h=round(font * 2.0), layer_gap=round(font * 5.4),
-                   sep=round(font * 1.2))
+                   sep=round(font * (2.0 if n <= 100 else 1.2)))
     connected = {e.source for e in edges} | {e.target for e in edges}
     isolated = [v for v in nodes if v not in connected]
     if n > MAX_WITH_ISOLATED:
         isolated = []
-    # 1-4. the layered layout of the nodes with edges
-    lay = _layout([v for v in nodes if v in connected], edges, style)
-    return _render(lay, edges, isolated, style, width)
+    # 1-4. a layered layout of each connected part, largest first
+    dummies = itertools.count()  # dummy points are numbered across the parts
+    layouts = [_layout(part_nodes, part_edges, style, width - 2 * style.margin, dummies)
+               for part_nodes, part_edges in _components([v for v in nodes if v in connected],
+                                                         edges)]
+    return _render(layouts, edges, isolated, style, width)
 
 
 def graph_section(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int = 900) -> str:
@@ -145,8 +151,7 @@ def _validate(nodes: list[str], edges: Sequence[EdgeRecord], width: int) -> None
     if isinstance(width, bool) or not isinstance(width, int) or width < 200:
         raise ValueError(f"width {width!r}: expected a whole number of pixels >= 200")
     if len(set(nodes)) != len(nodes):
-        seen: set[str] = set()
-        dup = next(v for v in nodes if v in seen or seen.add(v))
+        dup = next(v for k, v in enumerate(nodes) if v in nodes[:k])
         raise ValueError(f"nodes: {dup!r} appears twice; node names must be unique")
     known = set(nodes)
     for e in edges:
@@ -187,97 +192,142 @@ class _Layout:
     up: dict[str | int, list[str | int]] = field(default_factory=dict)
     down: dict[str | int, list[str | int]] = field(default_factory=dict)
 
+    def span(self) -> tuple[float, float]:
+        """Left and right end of the drawing of this part."""
+        items = [u for row in self.layers for u in row]
+        return (min(self.x[u] - self.width[u] / 2 for u in items),
+                max(self.x[u] + self.width[u] / 2 for u in items))
+
 
 def _label(name: str) -> str:
     return name if len(name) <= _MAX_LABEL else name[:_MAX_LABEL - 1] + "\u2026"
 
 
-def _layout(nodes: list[str], edges: Sequence[EdgeRecord], style: _Style) -> _Layout:
+def _components(nodes: list[str], edges: Sequence[EdgeRecord]
+                ) -> list[tuple[list[str], list[EdgeRecord]]]:
+    """The connected parts (edges taken without direction), largest first, then by node order."""
+    g = nx.Graph()
+    g.add_nodes_from(nodes)
+    g.add_edges_from((e.source, e.target) for e in edges)
     index = {v: i for i, v in enumerate(nodes)}
-    # 1. a linear order: Kahn's algorithm on the directed edges, ties by node order; a
-    #    directed cycle (an invalid result) is broken at the node with fewest open in-arcs
-    preds: dict[str, set[str]] = {v: set() for v in nodes}
+    parts = [sorted(c, key=index.__getitem__) for c in nx.connected_components(g)]
+    parts.sort(key=lambda c: (-len(c), index[c[0]]))
+    where = {v: k for k, c in enumerate(parts) for v in c}
+    part_edges: list[list[EdgeRecord]] = [[] for _ in parts]
+    for e in edges:
+        part_edges[where[e.source]].append(e)
+    return list(zip(parts, part_edges, strict=True))
+
+
+def _linear_order(nodes: list[str], edges: Sequence[EdgeRecord]) -> dict[str, int]:
+    """Position of each node in a topological order of the directed edges (Kahn's algorithm,
+    ties by node order); a directed cycle (an invalid result) is broken at the node with
+    the fewest open in-arcs."""
+    index = {v: i for i, v in enumerate(nodes)}
+    succs: dict[str, list[str]] = {v: [] for v in nodes}
+    open_in = dict.fromkeys(nodes, 0)
     for e in edges:
         if e.orientation == "directed":
-            preds[e.target].add(e.source)
-    open_in = {v: len(preds[v]) for v in nodes}
-    succs: dict[str, list[str]] = {v: [] for v in nodes}
-    for v in nodes:
-        for u in preds[v]:
-            succs[u].append(v)
+            succs[e.source].append(e.target)
+            open_in[e.target] += 1
     pos: dict[str, int] = {}
     remaining = set(nodes)
     while remaining:
-        ready = [v for v in remaining if open_in[v] == 0]
-        pick = min(ready or remaining, key=lambda v: (open_in[v], index[v]))
+        pick = min(remaining, key=lambda v: (open_in[v], index[v]))
         pos[pick] = len(pos)
         remaining.discard(pick)
         for w in succs[pick]:
             open_in[w] -= 1
-    # 2. layout arcs all agree with that order (so they form a DAG); layers by longest
-    #    path, then sources moved down to just above their highest child
-    arcs: dict[tuple[str, str], tuple[str, str]] = {}
-    for e in edges:
-        a, b = (e.source, e.target) if pos[e.source] < pos[e.target] else (e.target, e.source)
-        arcs[(e.source, e.target)] = (a, b)
+    return pos
+
+
+def _assign_layers(nodes: list[str], arcs: list[tuple[str, str]], pos: dict[str, int],
+                   need: dict[str, float], capacity: float) -> dict[str, int]:
+    """Layers by longest path over the arcs, except that a full layer (nodes needing more
+    than `capacity`) sends a node further down; sources then move to just above their
+    highest child where there is room. Empty layers are dropped."""
     parents: dict[str, list[str]] = {v: [] for v in nodes}
     children: dict[str, list[str]] = {v: [] for v in nodes}
-    for a, b in arcs.values():
+    for a, b in arcs:
         parents[b].append(a)
         children[a].append(b)
-    layer: dict[str | int, int] = {}
+    layer: dict[str, int] = {}
+    load: list[float] = []
     for v in sorted(nodes, key=pos.__getitem__):
-        layer[v] = max((layer[u] + 1 for u in parents[v]), default=0)
+        k = max((layer[u] + 1 for u in parents[v]), default=0)
+        while k < len(load) and load[k] > 0 and load[k] + need[v] > capacity:
+            k += 1
+        load.extend([0.0] * (k + 1 - len(load)))
+        layer[v] = k
+        load[k] += need[v]
     for v in nodes:
         if not parents[v] and children[v]:
-            layer[v] = min(layer[c] for c in children[v]) - 1
-    depth = max(layer.values(), default=-1) + 1
-    layers: list[list[str | int]] = [[] for _ in range(depth)]
+            k = min(layer[c] for c in children[v]) - 1
+            if k > layer[v] and load[k] + need[v] <= capacity:
+                load[layer[v]] -= need[v]
+                load[k] += need[v]
+                layer[v] = k
+    renumber = {k: i for i, k in enumerate(sorted(set(layer.values())))}
+    return {v: renumber[k] for v, k in layer.items()}
+
+
+def _layout(nodes: list[str], edges: Sequence[EdgeRecord], style: _Style, capacity: float,
+            dummies: Iterator[int]) -> _Layout:
+    """Layers, order and x of one connected part; dummy points numbered by `dummies`."""
+    # 1. acyclic: every layout arc follows one linear order of the nodes
+    pos = _linear_order(nodes, edges)
+    arcs = {(e.source, e.target): (e.source, e.target) if pos[e.source] < pos[e.target]
+            else (e.target, e.source) for e in edges}
+    # 2. layers, and dummy points where an arc spans several layers
+    need = {v: style.box_w(_label(v)) + style.sep for v in nodes}
+    layer: dict[str | int, int] = dict(
+        _assign_layers(nodes, list(arcs.values()), pos, need, _FILL * capacity))
+    layers: list[list[str | int]] = [[] for _ in range(max(layer.values()) + 1)]
     for v in sorted(nodes, key=pos.__getitem__):
-        layers[int(layer[v])].append(v)
-    lay = _Layout(layers, layer)
-    lay.up = {v: [] for v in nodes}
-    lay.down = {v: [] for v in nodes}
-    # dummy points where an arc spans several layers
-    dummy = 0
+        layers[layer[v]].append(v)
+    lay = _Layout(layers, layer, up={v: [] for v in nodes}, down={v: [] for v in nodes})
     for key, (a, b) in arcs.items():
         chain: list[str | int] = [a]
-        for k in range(int(layer[a]) + 1, int(layer[b])):
+        for k in range(layer[a] + 1, layer[b]):
+            dummy = next(dummies)
             chain.append(dummy)
             layer[dummy] = k
             layers[k].append(dummy)
             lay.up[dummy], lay.down[dummy] = [], []
-            dummy += 1
         chain.append(b)
         for u, w in zip(chain, chain[1:], strict=False):
             lay.down[u].append(w)
             lay.up[w].append(u)
         lay.chains[key] = chain
-    # 3. crossing reduction: barycentre sweeps, keeping the best order seen
-    best = [list(row) for row in layers]
-    best_cross = _crossings(layers, lay.down)
+    # 3. crossing reduction, 4. horizontal placement
+    lay.layers = _reduce_crossings(layers, lay.up, lay.down)
+    for row in lay.layers:
+        for u in row:
+            lay.width[u] = style.box_w(_label(u)) if isinstance(u, str) else 0.0
+    _place(lay, style, capacity)
+    return lay
+
+
+def _reduce_crossings(layers: list[list[str | int]], up: dict[str | int, list[str | int]],
+                      down: dict[str | int, list[str | int]]) -> list[list[str | int]]:
+    """Barycentre sweeps, down and up; the order with the fewest crossings seen."""
+    layers = [list(row) for row in layers]
+    best, best_cross = [list(row) for row in layers], _crossings(layers, down)
+    depth = len(layers)
     for sweep in range(_SWEEPS):
         downward = sweep % 2 == 0
-        rows = range(1, depth) if downward else range(depth - 2, -1, -1)
-        for i in rows:
-            ref = layers[i - 1] if downward else layers[i + 1]
-            where = {u: k for k, u in enumerate(ref)}
-            nbrs = lay.up if downward else lay.down
+        for i in (range(1, depth) if downward else range(depth - 2, -1, -1)):
+            where = {u: k for k, u in enumerate(layers[i - 1] if downward else layers[i + 1])}
+            nbrs = up if downward else down
             keys = {}
             for k, u in enumerate(layers[i]):
                 ks = [where[w] for w in nbrs[u]]
                 keys[u] = sum(ks) / len(ks) if ks else k
             layers[i].sort(key=keys.__getitem__)  # stable: ties keep their order
-        cross = _crossings(layers, lay.down)
+        cross = _crossings(layers, down)
         if cross < best_cross:
             best, best_cross = [list(row) for row in layers], cross
-    lay.layers = best
-    # 4. horizontal placement
-    for row in lay.layers:
-        for u in row:
-            lay.width[u] = style.box_w(_label(u)) if isinstance(u, str) else 0.0
-    _place(lay, style)
-    return lay
+    return best
 
 
 def _crossings(layers: list[list[str | int]], down: dict[str | int, list[str | int]]) -> int:
@@ -321,10 +371,11 @@ def _isotonic(y: np.ndarray) -> np.ndarray:
     return np.repeat(values, counts)
 
 
-def _place(lay: _Layout, style: _Style) -> None:
-    """x of every item: near the mean x of its neighbours, in order, never too close."""
+def _place(lay: _Layout, style: _Style, capacity: float) -> None:
+    """x of every item: near the mean x of its neighbours, in order, never too close, and
+    within ``[0, capacity]`` where the layer fits (bounds on a monotone fit are a clip)."""
     offsets = [_gaps(row, lay, style) for row in lay.layers]
-    widest = max((off[-1] for off in offsets if len(off)), default=0.0)
+    widest = max(capacity, max((off[-1] for off in offsets if len(off)), default=0.0))
     for row, off in zip(lay.layers, offsets, strict=True):
         shift = (widest - (off[-1] if len(off) else 0.0)) / 2
         for u, o in zip(row, off, strict=True):
@@ -341,7 +392,7 @@ def _place(lay: _Layout, style: _Style) -> None:
             for k, u in enumerate(row):
                 nb = lay.up[u] + lay.down[u]
                 want[k] = sum(lay.x[w] for w in nb) / len(nb) if nb else lay.x[u]
-            x = _isotonic(want - off) + off
+            x = np.clip(_isotonic(want - off), 0.0, max(0.0, widest - off[-1])) + off
             for u, v in zip(row, x, strict=True):
                 lay.x[u] = float(v)
 
@@ -369,9 +420,9 @@ def _fmt_p(v: float | None) -> str:
 
 def _tooltip(e: EdgeRecord) -> str:
     arrow = "->" if e.orientation == "directed" else "--"
-    text = (f"{e.source} {arrow} {e.target}, rule {e.rule}, via {', '.join(e.via) or '-'}, "
+    text = (f"{e.source} {arrow} {e.target}; rule {e.rule}; via {', '.join(e.via) or '-'}; "
             f"p_adjacency {_fmt_p(e.p_adjacency)}")
-    return text + (", conflicting evidence" if e.conflict else "")
+    return text + ("; conflicting evidence" if e.conflict else "")
 
 
 def _clip(cx: float, cy: float, tx: float, ty: float, hw: float, hh: float) -> tuple[float, float]:
@@ -383,86 +434,112 @@ def _clip(cx: float, cy: float, tx: float, ty: float, hw: float, hh: float) -> t
     return cx + t * dx, cy + t * dy
 
 
-def _render(lay: _Layout, edges: Sequence[EdgeRecord], isolated: list[str], style: _Style,
-            width: int) -> str:
-    m, f = style.margin, style.font
-    # legend band on top, only for the kinds present
-    kinds = {_kind(e) for e in edges}
-    legend = [item for item in _LEGEND if item[0] in kinds]
+def _pack(layouts: list[_Layout], style: _Style, width: int, top: float
+          ) -> tuple[dict[str | int, float], dict[str | int, float], int, float]:
+    """Place the parts in rows (shelves) of at most `width`: x and y of every item, the
+    width of the picture and the bottom of the last row."""
+    gap = 3 * style.sep
+    avail = width - 2 * style.margin
+    shelves: list[list[tuple[_Layout, float]]] = []
+    used = math.inf
+    for lay in layouts:
+        left, right = lay.span()
+        if used + gap + (right - left) > avail:
+            shelves.append([])
+            used = -gap
+        shelves[-1].append((lay, used + gap - left))
+        used += gap + (right - left)
+    rows_w = [max((lay.span()[1] + off for lay, off in row), default=0.0) for row in shelves]
+    total_w = max(width, int(math.ceil(max(rows_w, default=0.0) + 2 * style.margin)))
+    xs: dict[str | int, float] = {}
+    ys: dict[str | int, float] = {}
+    y = top
+    for row, row_w in zip(shelves, rows_w, strict=True):
+        dx = (total_w - row_w) / 2
+        for lay, off in row:
+            for u, x in lay.x.items():
+                xs[u] = x + off + dx
+                ys[u] = y + style.box_h / 2 + lay.layer_of[u] * style.layer_gap
+        depth = max(len(lay.layers) for lay, _ in row)
+        y += (depth - 1) * style.layer_gap + style.box_h + style.layer_gap / 2
+    return xs, ys, total_w, (y - style.layer_gap / 2 if shelves else top)
+
+
+def _stroke(kind: str, head: bool) -> str:
+    """Colour, dashes and arrowhead attributes of an edge mark of `kind`."""
+    dash = " stroke-dasharray=\"6 4\"" if kind == "conflict" else ""
+    marker = f" marker-end=\"url(#og-head-{kind})\"" if head else ""
+    return f"stroke=\"{COLOURS[kind]}\" stroke-width=\"2\"{dash}{marker}"
+
+
+def _isolated_rows(isolated: list[str], style: _Style, total_w: int, y: float
+                   ) -> tuple[dict[str, tuple[float, float]], float]:
+    """Centres of the nodes without edges, in rows from `y` down; and the bottom."""
+    m, out, x = style.margin, {}, float(style.margin)
+    y += style.box_h / 2
+    for v in isolated:
+        w = style.box_w(_label(v))
+        if x + w > total_w - m and x > m:
+            x, y = float(m), y + style.box_h + style.sep
+        out[v] = (x + w / 2, y)
+        x += w + style.sep
+    return out, y + style.box_h / 2
+
+
+def _render(layouts: list[_Layout], edges: Sequence[EdgeRecord], isolated: list[str],
+            style: _Style, width: int) -> str:
+    m, f, hh = style.margin, style.font, style.box_h / 2
+    # 1. where everything goes: legend on top (kinds present only), the parts in rows (the
+    #    picture widens if one part is wider than `width`), nodes without edges below
+    legend = [item for item in _LEGEND if item[0] in {_kind(e) for e in edges}]
     top = m + (2 * f if legend else 0)
-    # horizontal extent: centre the drawing, or widen the picture if needed
-    left = min((lay.x[u] - lay.width[u] / 2 for row in lay.layers for u in row), default=0.0)
-    right = max((lay.x[u] + lay.width[u] / 2 for row in lay.layers for u in row), default=0.0)
-    extent = right - left
-    total_w = max(width, int(math.ceil(extent + 2 * m)))
-    dx = (total_w - extent) / 2 - left
-    xs = {u: x + dx for u, x in lay.x.items()}
-    ys = {u: top + style.box_h / 2 + k * style.layer_gap for u, k in lay.layer_of.items()}
-    height = top + (len(lay.layers) - 1) * style.layer_gap + style.box_h + m
-    # isolated nodes: rows below the graph
-    iso_xy: dict[str, tuple[float, float]] = {}
-    if isolated:
-        y = height + f * 1.5 if lay.layers else top + f * 1.5
-        label_y = y - f * 0.5
-        y += style.box_h / 2 + f * 0.5
-        x = float(m)
-        for v in isolated:
-            w = style.box_w(_label(v))
-            if x + w > total_w - m and x > m:
-                x, y = float(m), y + style.box_h + style.sep
-            iso_xy[v] = (x + w / 2, y)
-            x += w + style.sep
-        height = y + style.box_h / 2 + m
-    else:
-        label_y = 0.0
-    height = int(math.ceil(height))
+    xs, ys, total_w, bottom = _pack(layouts, style, width, top)
+    widths: dict[str | int, float] = {}
+    chains: dict[tuple[str, str], list[str | int]] = {}
+    for lay in layouts:
+        widths.update(lay.width)
+        chains.update(lay.chains)
+    nodes = [(u, xs[u], ys[u]) for lay in layouts for row in lay.layers for u in row
+             if isinstance(u, str)]
+    label_y = (bottom + 1.5 * f) if layouts else top + f
+    iso, bottom = _isolated_rows(isolated, style, total_w, label_y + f * 0.5) if isolated \
+        else ({}, bottom)
+    nodes += [(v, x, y) for v, (x, y) in iso.items()]
+    height = int(math.ceil(bottom + m))
+    # 2. the marks: header, arrowheads, legend, edges under the nodes, nodes
     out = [f"<svg class=\"og-graph\" width=\"{total_w}\" height=\"{height}\" "
            f"viewBox=\"0 0 {total_w} {height}\" role=\"img\" aria-label=\"drawing of the "
            f"learned graph\" font-family=\"system-ui, sans-serif\" font-size=\"{f}\">",
            "<style>.og-edge:hover{stroke-width:4}</style>", "<defs>"]
-    for kind, _, head in _LEGEND:
-        if head:
-            out.append(f"<marker id=\"og-head-{kind}\" viewBox=\"0 0 10 10\" refX=\"10\" "
-                       f"refY=\"5\" markerWidth=\"5\" markerHeight=\"5\" "
-                       f"orient=\"auto-start-reverse\"><path d=\"M0,0 L10,5 L0,10 z\" "
-                       f"fill=\"{COLOURS[kind]}\"/></marker>")
+    out += [f"<marker id=\"og-head-{kind}\" viewBox=\"0 0 10 10\" refX=\"10\" refY=\"5\" "
+            f"markerWidth=\"5\" markerHeight=\"5\" orient=\"auto-start-reverse\">"
+            f"<path d=\"M0,0 L10,5 L0,10 z\" fill=\"{COLOURS[kind]}\"/></marker>"
+            for kind, _, head in _LEGEND if head]
     out.append("</defs>")
-    # legend
-    x = float(m)
+    x, y = float(m), m + f / 2
     for kind, text, head in legend:
-        dash = " stroke-dasharray=\"6 4\"" if kind == "conflict" else ""
-        marker = f" marker-end=\"url(#og-head-{kind})\"" if head else ""
-        out.append(f"<line class=\"og-legend\" x1=\"{x:.1f}\" y1=\"{m + f / 2:.1f}\" "
-                   f"x2=\"{x + 28:.1f}\" y2=\"{m + f / 2:.1f}\" stroke=\"{COLOURS[kind]}\" "
-                   f"stroke-width=\"2\"{dash}{marker}/>")
-        out.append(f"<text x=\"{x + 34:.1f}\" y=\"{m + f / 2:.1f}\" dominant-baseline=\"central\" "
+        out.append(f"<line class=\"og-legend\" x1=\"{x:.1f}\" y1=\"{y:.1f}\" "
+                   f"x2=\"{x + 28:.1f}\" y2=\"{y:.1f}\" {_stroke(kind, head)}/>"
+                   f"<text x=\"{x + 34:.1f}\" y=\"{y:.1f}\" dominant-baseline=\"central\" "
                    f"fill=\"#333\">{_e(text)}</text>")
         x += 34 + 0.62 * f * len(text) + 2 * f
-    # edges, under the nodes
-    hh = style.box_h / 2
     for e in edges:
-        chain = lay.chains[(e.source, e.target)]
+        chain = chains[(e.source, e.target)]
         pts = [(xs[u], ys[u]) for u in chain]
-        a, b = chain[0], chain[-1]
-        pts[0] = _clip(*pts[0], *pts[1], lay.width[a] / 2, hh)
-        pts[-1] = _clip(*pts[-1], *pts[-2], lay.width[b] / 2 + 1, hh + 1)
+        pts[0] = _clip(*pts[0], *pts[1], widths[chain[0]] / 2, hh)
+        pts[-1] = _clip(*pts[-1], *pts[-2], widths[chain[-1]] / 2 + 1, hh + 1)
         if chain[0] != e.source:  # the layout arc runs against the edge: draw it forwards
             pts.reverse()
         kind = _kind(e)
         d = "M" + " L".join(f"{px:.1f},{py:.1f}" for px, py in pts)
-        dash = " stroke-dasharray=\"6 4\"" if kind == "conflict" else ""
-        marker = (f" marker-end=\"url(#og-head-{kind})\""
-                  if e.orientation == "directed" and kind != "conflict" else "")
+        head = e.orientation == "directed" and kind != "conflict"
         out.append(f"<path class=\"og-edge og-{kind}\" d=\"{d}\" fill=\"none\" "
-                   f"stroke=\"{COLOURS[kind]}\" stroke-width=\"2\" stroke-linejoin=\"round\""
-                   f"{dash}{marker}><title>{_e(_tooltip(e))}</title></path>")
-    # nodes
-    drawn = [(u, xs[u], ys[u]) for row in lay.layers for u in row if isinstance(u, str)]
-    if iso_xy:
-        out.append(f"<text x=\"{m}\" y=\"{label_y:.1f}\" fill=\"#555\">variables without any "
-                   f"edge:</text>")
-    drawn += [(v, x, y) for v, (x, y) in iso_xy.items()]
-    for name, cx, cy in drawn:
+                   f"stroke-linejoin=\"round\" {_stroke(kind, head)}>"
+                   f"<title>{_e(_tooltip(e))}</title></path>")
+    if iso:
+        out.append(f"<text x=\"{m}\" y=\"{label_y:.1f}\" fill=\"#555\">variables without "
+                   f"any edge:</text>")
+    for name, cx, cy in nodes:
         w = style.box_w(_label(name))
         out.append(f"<g class=\"og-node\"><title>{_e(name)}</title>"
                    f"<rect class=\"og-box\" x=\"{cx - w / 2:.1f}\" y=\"{cy - hh:.1f}\" "
