@@ -165,3 +165,17 @@ def test_lost_without_matches_recomputing():
             rest = {x.name: x.targets for x in regs[1:] if x.name != r.name}
             kept = set(essential_graph(dag, rest).graph.directed_edges())
             assert res.lost_without[r.name] == len(full - kept)
+
+
+def test_cli_warns_about_a_target_outside_the_dag(tmp_path, capsys, monkeypatch):
+    from pipeline.cli import main
+
+    monkeypatch.chdir(tmp_path)
+    write(tmp_path / "dag.csv", "source,target\nAlpha,Beta\n")
+    write(tmp_path / "regimes.csv", "regime,targets\nctrl,\nkd,Alpah\n")
+    assert main(["identify", "--dag", "dag.csv", "--regimes", "regimes.csv", "--out",
+                 "o.json"]) == 0
+    out = capsys.readouterr().out
+    assert "Alpah" in out and "nearest: Alpha" in out
+    record = json.loads((tmp_path / "o.json").read_text())
+    assert any("Alpah" in w for w in record["warnings"])

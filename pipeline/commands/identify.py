@@ -7,7 +7,7 @@ from pathlib import Path
 
 from rich.console import Console
 
-from pipeline.errors import InputError
+from pipeline.errors import InputError, nearest_names
 from pipeline.evidence.identify import identify
 from pipeline.fileio import write_text
 from pipeline.intake.dag import read_dag_csv
@@ -35,7 +35,8 @@ def run(args: argparse.Namespace) -> int:
     regimes = read_regimes(args.regimes, variables=None, reference=args.reference)
     extra = [t for r in regimes for t in r.targets]
     dag = read_dag_csv(args.dag, extra_nodes=extra)
-    design = Design(variables=tuple(str(n) for n in dag.nodes), regimes=tuple(regimes))
+    design = Design(variables=tuple(str(n) for n in dag.nodes), regimes=tuple(regimes),
+                    warnings=tuple(_targets_outside(dag, regimes)))
     result = identify(dag, design)
     path = None
     if args.out:  # written before printing, so a closed terminal pipe cannot lose it
@@ -48,3 +49,16 @@ def run(args: argparse.Namespace) -> int:
     if path is not None:
         console.print(f"wrote {path}")
     return 0
+
+
+def _targets_outside(dag, regimes) -> list[str]:
+    """Warnings for targets that no edge of the DAG file names (a typo is the usual cause)."""
+    named = {n for e in dag.edges for n in e}
+    out = []
+    for r in regimes:
+        for t in r.targets:
+            if t not in named:
+                out.append(f"target '{t}' of regime '{r.name}' appears in no edge of the DAG "
+                           f"file; it is taken as a variable with no edges"
+                           f"{nearest_names(t, sorted(named))}")
+    return out

@@ -294,7 +294,7 @@ def _parquet_chunks(header: TableHeader, variables: list[str], regime_column: st
 
     text = [v for v in variables if not numeric(schema.field(v).type)]
     if text:
-        kinds = ", ".join(f"{v} ({schema.field(v).type})" for v in text)
+        kinds = ", ".join(f"{v} ({_kind(schema.field(v).type)})" for v in text)
         raise InputError(f"data file {header.path}: column(s) {kinds} are not numeric; if they "
                          f"are not measurements, pass --ignore-columns {','.join(text)}")
     start = 0
@@ -310,3 +310,16 @@ def _parquet_chunks(header: TableHeader, variables: list[str], regime_column: st
         labels, codes = _labels(pd.Series(reg.to_pandas(), dtype="category"))
         yield Chunk(start, labels, codes, values)
         start += n
+
+
+def _kind(t) -> str:
+    """A Parquet column type in plain words."""
+    import pyarrow as pa
+
+    if pa.types.is_string(t) or pa.types.is_large_string(t):
+        return "text"
+    if pa.types.is_boolean(t):
+        return "true/false"
+    if pa.types.is_temporal(t):
+        return "dates or times"
+    return str(t)

@@ -425,13 +425,22 @@ def _tooltip(e: EdgeRecord) -> str:
     return text + ("; conflicting evidence" if e.conflict else "")
 
 
-def _clip(cx: float, cy: float, tx: float, ty: float, hw: float, hh: float) -> tuple[float, float]:
-    """Where the segment from the box centre (cx, cy) towards (tx, ty) leaves the box."""
-    dx, dy = tx - cx, ty - cy
-    if dx == 0 and dy == 0:
-        return cx, cy
-    t = min(hw / abs(dx) if dx else math.inf, hh / abs(dy) if dy else math.inf)
-    return cx + t * dx, cy + t * dy
+def _ports(chains: dict[tuple[str, str], list[str | int]], xs: dict[str | int, float],
+           widths: dict[str | int, float]) -> dict[tuple[tuple[str, str], str], float]:
+    """x where each edge leaves the bottom of its upper box ("out") and enters the top of
+    its lower box ("in"): spread over the middle of the box in the order of the other end."""
+    sides: dict[tuple[str | int, str], list[tuple[float, tuple[str, str]]]] = {}
+    for key, chain in chains.items():
+        sides.setdefault((chain[0], "out"), []).append((xs[chain[1]], key))
+        sides.setdefault((chain[-1], "in"), []).append((xs[chain[-2]], key))
+    ports = {}
+    for (node, side), ends in sides.items():
+        ends.sort()
+        spread = min(widths[node] * 0.8, 12.0 * (len(ends) - 1))
+        for k, (_, key) in enumerate(ends):
+            frac = k / (len(ends) - 1) - 0.5 if len(ends) > 1 else 0.0
+            ports[key, side] = xs[node] + frac * spread
+    return ports
 
 
 def _pack(layouts: list[_Layout], style: _Style, width: int, top: float
@@ -523,11 +532,13 @@ def _render(layouts: list[_Layout], edges: Sequence[EdgeRecord], isolated: list[
                    f"<text x=\"{x + 34:.1f}\" y=\"{y:.1f}\" dominant-baseline=\"central\" "
                    f"fill=\"#333\">{_e(text)}</text>")
         x += 34 + 0.62 * f * len(text) + 2 * f
+    ports = _ports(chains, xs, widths)
     for e in edges:
         chain = chains[(e.source, e.target)]
         pts = [(xs[u], ys[u]) for u in chain]
-        pts[0] = _clip(*pts[0], *pts[1], widths[chain[0]] / 2, hh)
-        pts[-1] = _clip(*pts[-1], *pts[-2], widths[chain[-1]] / 2 + 1, hh + 1)
+        key = (e.source, e.target)
+        pts[0] = (ports[key, "out"], ys[chain[0]] + hh)
+        pts[-1] = (ports[key, "in"], ys[chain[-1]] - hh - 1)
         if chain[0] != e.source:  # the layout arc runs against the edge: draw it forwards
             pts.reverse()
         kind = _kind(e)
