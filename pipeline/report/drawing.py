@@ -1,8 +1,8 @@
 """A drawing of the learned graph as inline SVG, laid out in layers.
 
 A layered drawing puts every variable on a horizontal layer so that directed edges point
-downwards, which reads best for a causal graph. It follows the four steps of Sugiyama,
-Tagawa & Toda [1]_: (1) make the graph acyclic, (2) assign layers by longest path, with
+downwards, which reads best for a causal graph. The layout (`pipeline.report.layout`)
+follows the four steps of Sugiyama, Tagawa & Toda [1]_: (1) make the graph acyclic, (2) assign layers by longest path, with
 dummy points where an edge spans several layers, (3) order each layer to reduce edge
 crossings with the barycentre heuristic, (4) place the nodes horizontally, here by the
 least-squares placement that keeps the order and a minimum gap (solved exactly by
@@ -38,13 +38,10 @@ from __future__ import annotations
 import html
 import itertools
 import math
-from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field
-
-import networkx as nx
-import numpy as np
+from collections.abc import Sequence
 
 from pipeline.evidence.schema import EdgeRecord
+from pipeline.report.layout import Layout, Style, components, layered_layout, short_label
 
 __all__ = ["graph_svg", "graph_section", "MAX_DRAWN", "MAX_WITH_ISOLATED", "COLOURS"]
 
@@ -65,10 +62,6 @@ COLOURS = {
 _LEGEND = (("intervention", "intervention", True), ("collider", "collider", True),
            ("meek", "Meek rule", True), ("other", "directed, other", True),
            ("undirected", "undirected", False), ("conflict", "conflict", False))
-_SWEEPS = 4  # barycentre sweeps (down and up) for the crossing reduction
-_PLACE_PASSES = 6  # passes of the horizontal placement
-_FILL = 0.75  # share of a layer's width for nodes; the rest is for edges passing through
-_MAX_LABEL = 18  # characters of a node label; the full name is in the tooltip
 
 
 # -- the public functions ------------------------------------------------------------------------
@@ -102,7 +95,7 @@ def graph_svg(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int =
     n = len(nodes)
     # 0. sizes by the number of variables
     font = 12 if n <= 100 else (10 if n <= MAX_WITH_ISOLATED else 9)
-    style = _Style(font=font, box_h=round(font * 2.0), layer_gap=round(font * 5.4),
+    style = Style(font=font, box_h=round(font * 2.0), layer_gap=round(font * 5.4),
                    sep=round(font * (2.0 if n <= 100 else 1.2)))
     connected = {e.source for e in edges} | {e.target for e in edges}
     isolated = [v for v in nodes if v not in connected]
@@ -110,8 +103,8 @@ def graph_svg(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int =
         isolated = []
     # 1-4. a layered layout of each connected part, largest first
     dummies = itertools.count()  # dummy points are numbered across the parts
-    layouts = [_layout(part_nodes, part_edges, style, width - 2 * style.margin, dummies)
-               for part_nodes, part_edges in _components([v for v in nodes if v in connected],
+    layouts = [layered_layout(part_nodes, part_edges, style, width - 2 * style.margin, dummies)
+               for part_nodes, part_edges in components([v for v in nodes if v in connected],
                                                          edges)]
     return _render(layouts, edges, isolated, style, width)
 
@@ -164,239 +157,6 @@ def _validate(nodes: list[str], edges: Sequence[EdgeRecord], width: int) -> None
                              f"variables has none")
 
 
-# -- layout --------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class _Style:
-    font: int
-    box_h: int
-    layer_gap: int
-    sep: int
-    margin: int = 16
-    dummy_sep: int = 10
-
-    def box_w(self, label: str) -> float:
-        """Estimated width of a node box holding `label` (about 0.62 em a character)."""
-        return max(0.62 * self.font * len(label) + self.font * 1.2, self.box_h * 1.6)
-
-
-@dataclass
-class _Layout:
-    """Layers of items (real nodes are str, dummy points are int) and their x."""
-
-    layers: list[list[str | int]]
-    layer_of: dict[str | int, int]
-    x: dict[str | int, float] = field(default_factory=dict)
-    width: dict[str | int, float] = field(default_factory=dict)
-    # layout edge (upper, lower) of each drawn edge, and its chain of dummy points
-    chains: dict[tuple[str, str], list[str | int]] = field(default_factory=dict)
-    up: dict[str | int, list[str | int]] = field(default_factory=dict)
-    down: dict[str | int, list[str | int]] = field(default_factory=dict)
-
-    def span(self) -> tuple[float, float]:
-        """Left and right end of the drawing of this part."""
-        items = [u for row in self.layers for u in row]
-        return (min(self.x[u] - self.width[u] / 2 for u in items),
-                max(self.x[u] + self.width[u] / 2 for u in items))
-
-
-def _label(name: str) -> str:
-    return name if len(name) <= _MAX_LABEL else name[:_MAX_LABEL - 1] + "\u2026"
-
-
-def _components(nodes: list[str], edges: Sequence[EdgeRecord]
-                ) -> list[tuple[list[str], list[EdgeRecord]]]:
-    """The connected parts (edges taken without direction), largest first, then by node order."""
-    g = nx.Graph()
-    g.add_nodes_from(nodes)
-    g.add_edges_from((e.source, e.target) for e in edges)
-    index = {v: i for i, v in enumerate(nodes)}
-    parts = [sorted(c, key=index.__getitem__) for c in nx.connected_components(g)]
-    parts.sort(key=lambda c: (-len(c), index[c[0]]))
-    where = {v: k for k, c in enumerate(parts) for v in c}
-    part_edges: list[list[EdgeRecord]] = [[] for _ in parts]
-    for e in edges:
-        part_edges[where[e.source]].append(e)
-    return list(zip(parts, part_edges, strict=True))
-
-
-def _linear_order(nodes: list[str], edges: Sequence[EdgeRecord]) -> dict[str, int]:
-    """Position of each node in a topological order of the directed edges (Kahn's algorithm,
-    ties by node order); a directed cycle (an invalid result) is broken at the node with
-    the fewest open in-arcs."""
-    index = {v: i for i, v in enumerate(nodes)}
-    succs: dict[str, list[str]] = {v: [] for v in nodes}
-    open_in = dict.fromkeys(nodes, 0)
-    for e in edges:
-        if e.orientation == "directed":
-            succs[e.source].append(e.target)
-            open_in[e.target] += 1
-    pos: dict[str, int] = {}
-    remaining = set(nodes)
-    while remaining:
-        pick = min(remaining, key=lambda v: (open_in[v], index[v]))
-        pos[pick] = len(pos)
-        remaining.discard(pick)
-        for w in succs[pick]:
-            open_in[w] -= 1
-    return pos
-
-
-def _assign_layers(nodes: list[str], arcs: list[tuple[str, str]], pos: dict[str, int],
-                   need: dict[str, float], capacity: float) -> dict[str, int]:
-    """Layers by longest path over the arcs, except that a full layer (nodes needing more
-    than `capacity`) sends a node further down; sources then move to just above their
-    highest child where there is room. Empty layers are dropped."""
-    parents: dict[str, list[str]] = {v: [] for v in nodes}
-    children: dict[str, list[str]] = {v: [] for v in nodes}
-    for a, b in arcs:
-        parents[b].append(a)
-        children[a].append(b)
-    layer: dict[str, int] = {}
-    load: list[float] = []
-    for v in sorted(nodes, key=pos.__getitem__):
-        k = max((layer[u] + 1 for u in parents[v]), default=0)
-        while k < len(load) and load[k] > 0 and load[k] + need[v] > capacity:
-            k += 1
-        load.extend([0.0] * (k + 1 - len(load)))
-        layer[v] = k
-        load[k] += need[v]
-    for v in nodes:
-        if not parents[v] and children[v]:
-            k = min(layer[c] for c in children[v]) - 1
-            if k > layer[v] and load[k] + need[v] <= capacity:
-                load[layer[v]] -= need[v]
-                load[k] += need[v]
-                layer[v] = k
-    renumber = {k: i for i, k in enumerate(sorted(set(layer.values())))}
-    return {v: renumber[k] for v, k in layer.items()}
-
-
-def _layout(nodes: list[str], edges: Sequence[EdgeRecord], style: _Style, capacity: float,
-            dummies: Iterator[int]) -> _Layout:
-    """Layers, order and x of one connected part; dummy points numbered by `dummies`."""
-    # 1. acyclic: every layout arc follows one linear order of the nodes
-    pos = _linear_order(nodes, edges)
-    arcs = {(e.source, e.target): (e.source, e.target) if pos[e.source] < pos[e.target]
-            else (e.target, e.source) for e in edges}
-    # 2. layers, and dummy points where an arc spans several layers
-    need = {v: style.box_w(_label(v)) + style.sep for v in nodes}
-    layer: dict[str | int, int] = dict(
-        _assign_layers(nodes, list(arcs.values()), pos, need, _FILL * capacity))
-    layers: list[list[str | int]] = [[] for _ in range(max(layer.values()) + 1)]
-    for v in sorted(nodes, key=pos.__getitem__):
-        layers[layer[v]].append(v)
-    lay = _Layout(layers, layer, up={v: [] for v in nodes}, down={v: [] for v in nodes})
-    for key, (a, b) in arcs.items():
-        chain: list[str | int] = [a]
-        for k in range(layer[a] + 1, layer[b]):
-            dummy = next(dummies)
-            chain.append(dummy)
-            layer[dummy] = k
-            layers[k].append(dummy)
-            lay.up[dummy], lay.down[dummy] = [], []
-        chain.append(b)
-        for u, w in zip(chain, chain[1:], strict=False):
-            lay.down[u].append(w)
-            lay.up[w].append(u)
-        lay.chains[key] = chain
-    # 3. crossing reduction, 4. horizontal placement
-    lay.layers = _reduce_crossings(layers, lay.up, lay.down)
-    for row in lay.layers:
-        for u in row:
-            lay.width[u] = style.box_w(_label(u)) if isinstance(u, str) else 0.0
-    _place(lay, style, capacity)
-    return lay
-
-
-def _reduce_crossings(layers: list[list[str | int]], up: dict[str | int, list[str | int]],
-                      down: dict[str | int, list[str | int]]) -> list[list[str | int]]:
-    """Barycentre sweeps, down and up; the order with the fewest crossings seen."""
-    layers = [list(row) for row in layers]
-    best, best_cross = [list(row) for row in layers], _crossings(layers, down)
-    depth = len(layers)
-    for sweep in range(_SWEEPS):
-        downward = sweep % 2 == 0
-        for i in (range(1, depth) if downward else range(depth - 2, -1, -1)):
-            where = {u: k for k, u in enumerate(layers[i - 1] if downward else layers[i + 1])}
-            nbrs = up if downward else down
-            keys = {}
-            for k, u in enumerate(layers[i]):
-                ks = [where[w] for w in nbrs[u]]
-                keys[u] = sum(ks) / len(ks) if ks else k
-            layers[i].sort(key=keys.__getitem__)  # stable: ties keep their order
-        cross = _crossings(layers, down)
-        if cross < best_cross:
-            best, best_cross = [list(row) for row in layers], cross
-    return best
-
-
-def _crossings(layers: list[list[str | int]], down: dict[str | int, list[str | int]]) -> int:
-    """Number of crossing segment pairs between consecutive layers."""
-    total = 0
-    for i in range(len(layers) - 1):
-        top = {u: k for k, u in enumerate(layers[i])}
-        low = {u: k for k, u in enumerate(layers[i + 1])}
-        seg = np.array([(top[u], low[w]) for u in layers[i] for w in down[u] if w in low],
-                       dtype=float).reshape(-1, 2)
-        if len(seg) < 2:
-            continue
-        a, b = seg[:, 0], seg[:, 1]
-        total += int(np.sum((a[:, None] < a[None, :]) & (b[:, None] > b[None, :])))
-    return total
-
-
-def _gaps(row: list[str | int], lay: _Layout, style: _Style) -> np.ndarray:
-    """Smallest centre-to-centre distance between consecutive items of a layer."""
-    g = np.zeros(len(row))
-    for k in range(1, len(row)):
-        a, b = row[k - 1], row[k]
-        sep = style.sep if isinstance(a, str) and isinstance(b, str) else style.dummy_sep
-        g[k] = (lay.width[a] + lay.width[b]) / 2 + sep
-    return np.cumsum(g)
-
-
-def _isotonic(y: np.ndarray) -> np.ndarray:
-    """Least-squares non-decreasing fit to `y` (pool adjacent violators)."""
-    values: list[float] = []
-    counts: list[int] = []
-    for v in y:
-        values.append(float(v))
-        counts.append(1)
-        while len(values) > 1 and values[-2] > values[-1]:
-            c = counts[-2] + counts[-1]
-            values[-2] = (values[-2] * counts[-2] + values[-1] * counts[-1]) / c
-            counts[-2] = c
-            values.pop()
-            counts.pop()
-    return np.repeat(values, counts)
-
-
-def _place(lay: _Layout, style: _Style, capacity: float) -> None:
-    """x of every item: near the mean x of its neighbours, in order, never too close, and
-    within ``[0, capacity]`` where the layer fits (bounds on a monotone fit are a clip)."""
-    offsets = [_gaps(row, lay, style) for row in lay.layers]
-    widest = max(capacity, max((off[-1] for off in offsets if len(off)), default=0.0))
-    for row, off in zip(lay.layers, offsets, strict=True):
-        shift = (widest - (off[-1] if len(off) else 0.0)) / 2
-        for u, o in zip(row, off, strict=True):
-            lay.x[u] = float(o + shift)
-    depth = len(lay.layers)
-    for p in range(_PLACE_PASSES):
-        downward = p % 2 == 0
-        rows = range(depth) if downward else range(depth - 1, -1, -1)
-        for i in rows:
-            row, off = lay.layers[i], offsets[i]
-            if not row:
-                continue
-            want = np.empty(len(row))
-            for k, u in enumerate(row):
-                nb = lay.up[u] + lay.down[u]
-                want[k] = sum(lay.x[w] for w in nb) / len(nb) if nb else lay.x[u]
-            x = np.clip(_isotonic(want - off), 0.0, max(0.0, widest - off[-1])) + off
-            for u, v in zip(row, x, strict=True):
-                lay.x[u] = float(v)
-
-
 # -- rendering -----------------------------------------------------------------------------------
 def _e(v: object) -> str:
     return html.escape(str(v), quote=True)
@@ -443,13 +203,13 @@ def _ports(chains: dict[tuple[str, str], list[str | int]], xs: dict[str | int, f
     return ports
 
 
-def _pack(layouts: list[_Layout], style: _Style, width: int, top: float
+def _pack(layouts: list[Layout], style: Style, width: int, top: float
           ) -> tuple[dict[str | int, float], dict[str | int, float], int, float]:
     """Place the parts in rows (shelves) of at most `width`: x and y of every item, the
     width of the picture and the bottom of the last row."""
     gap = 3 * style.sep
     avail = width - 2 * style.margin
-    shelves: list[list[tuple[_Layout, float]]] = []
+    shelves: list[list[tuple[Layout, float]]] = []
     used = math.inf
     for lay in layouts:
         left, right = lay.span()
@@ -481,13 +241,13 @@ def _stroke(kind: str, head: bool) -> str:
     return f"stroke=\"{COLOURS[kind]}\" stroke-width=\"2\"{dash}{marker}"
 
 
-def _isolated_rows(isolated: list[str], style: _Style, total_w: int, y: float
+def _isolated_rows(isolated: list[str], style: Style, total_w: int, y: float
                    ) -> tuple[dict[str, tuple[float, float]], float]:
     """Centres of the nodes without edges, in rows from `y` down; and the bottom."""
     m, out, x = style.margin, {}, float(style.margin)
     y += style.box_h / 2
     for v in isolated:
-        w = style.box_w(_label(v))
+        w = style.box_w(short_label(v))
         if x + w > total_w - m and x > m:
             x, y = float(m), y + style.box_h + style.sep
         out[v] = (x + w / 2, y)
@@ -495,8 +255,8 @@ def _isolated_rows(isolated: list[str], style: _Style, total_w: int, y: float
     return out, y + style.box_h / 2
 
 
-def _render(layouts: list[_Layout], edges: Sequence[EdgeRecord], isolated: list[str],
-            style: _Style, width: int) -> str:
+def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[str],
+            style: Style, width: int) -> str:
     m, f, hh = style.margin, style.font, style.box_h / 2
     # 1. where everything goes: legend on top (kinds present only), the parts in rows (the
     #    picture widens if one part is wider than `width`), nodes without edges below
@@ -551,12 +311,13 @@ def _render(layouts: list[_Layout], edges: Sequence[EdgeRecord], isolated: list[
         out.append(f"<text x=\"{m}\" y=\"{label_y:.1f}\" fill=\"#555\">variables without "
                    f"any edge:</text>")
     for name, cx, cy in nodes:
-        w = style.box_w(_label(name))
+        w = style.box_w(short_label(name))
         out.append(f"<g class=\"og-node\"><title>{_e(name)}</title>"
                    f"<rect class=\"og-box\" x=\"{cx - w / 2:.1f}\" y=\"{cy - hh:.1f}\" "
                    f"width=\"{w:.1f}\" height=\"{style.box_h}\" rx=\"{hh / 2:.1f}\" "
                    f"fill=\"#ffffff\" stroke=\"#333333\" stroke-width=\"1.2\"/>"
                    f"<text x=\"{cx:.1f}\" y=\"{cy:.1f}\" text-anchor=\"middle\" "
-                   f"dominant-baseline=\"central\" fill=\"#111\">{_e(_label(name))}</text></g>")
+                   f"dominant-baseline=\"central\" fill=\"#111\">"
+                   f"{_e(short_label(name))}</text></g>")
     out.append("</svg>")
     return "\n".join(out)
