@@ -2,11 +2,9 @@
 
 A layered drawing puts every variable on a horizontal layer so that directed edges point
 downwards, which reads best for a causal graph. The layout (`pipeline.report.layout`)
-follows the four steps of Sugiyama, Tagawa & Toda [1]_: (1) make the graph acyclic,
-(2) assign layers by longest path, with dummy points where an edge spans several
-layers, (3) order each layer to reduce edge crossings with the barycentre heuristic,
-(4) place the nodes horizontally, here by the least-squares placement that keeps the order and a minimum gap (solved exactly by
-isotonic regression with the pool-adjacent-violators algorithm [2]_). Everything is
+follows the four steps of Sugiyama, Tagawa & Toda [1]_: make the graph acyclic, assign
+layers by longest path, order each layer to reduce crossings, and place the nodes by the
+least-squares fit that keeps the order (isotonic regression [2]_). Everything is
 deterministic: the same graph gives the same picture, byte for byte.
 
 Undirected edges get a direction for the layout only, from the earlier node of a
