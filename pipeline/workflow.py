@@ -169,7 +169,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
             from pipeline.progress import Progress
 
             show = progress.enabled if isinstance(progress, Progress) else progress is True
-            intake = read_inputs(paths, regimes_path, progress=show, **options)
+            intake = read_inputs(paths, regimes_path, progress=show, fingerprint=fingerprint,
+                                 **options)
             if store_path is not None:
                 store = store or TestStore(store_path)
                 store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,

@@ -126,7 +126,7 @@ def _progress(enabled: bool):
 def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_column: str = "regime",
                 ignore_columns: Sequence[str] = (), drop_missing: bool = False,
                 reference: str | None = None, test: str = "gaussian", chunk_rows: int = 100_000,
-                progress: bool = False) -> Intake:
+                progress: bool = False, fingerprint: str | None = None) -> Intake:
     """Read measurement tables and the regimes file into a design and per-regime statistics.
 
     Parameters
@@ -149,6 +149,10 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         Rows per chunk of the streaming pass.
     progress : bool
         Show a progress display on standard error.
+    fingerprint : str, optional
+        The inputs' fingerprint when the caller has already computed it
+        (`pipeline.stats.fingerprint.fingerprint_inputs` with the same options); the raw
+        bytes are then not hashed again.
 
     Returns
     -------
@@ -174,9 +178,10 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
     with ThreadPoolExecutor(max_workers=1) as hasher, \
             ThreadPoolExecutor(max_workers=1) as worker:
         stop = threading.Event()  # set on failure: the hasher gives up at its next block
-        fp = hasher.submit(_fingerprint, paths, regimes_path, statistics_options(
-            regime_column=regime_column, ignore_columns=ignore, drop_missing=drop_missing,
-            reference=reference, test=test), stop)
+        if fingerprint is None:
+            fp = hasher.submit(_fingerprint, paths, regimes_path, statistics_options(
+                regime_column=regime_column, ignore_columns=ignore, drop_missing=drop_missing,
+                reference=reference, test=test), stop)
         # 2. one streaming pass over every file
         state = _Pass(variables, names, index, drop_missing, keep_rows=test == "rank")
         bar = _progress(progress)
@@ -207,7 +212,8 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         finally:
             if bar is not None:
                 bar.stop()
-        fingerprint = fp.result()
+        if fingerprint is None:
+            fingerprint = fp.result()
 
     # 3. missing values, regimes without data
     warnings = state.finish()
