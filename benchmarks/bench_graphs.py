@@ -22,22 +22,18 @@ from __future__ import annotations
 
 import argparse
 import datetime
-import os
-import platform
 import random
 import statistics
 import sys
 import time
-from pathlib import Path
 
 import networkx as nx
+from _common import append_results, machine
 
 from pipeline.graphs.counting import chain_components, class_size
 from pipeline.graphs.essential import essential_graph
 from pipeline.graphs.pdag import PDAG
 from pipeline.graphs.sampling import sample_dags
-
-RESULTS = Path(__file__).resolve().parent / "RESULTS.md"
 
 
 def random_dag(n: int, degree: float, rng: random.Random) -> nx.DiGraph:
@@ -72,18 +68,6 @@ def median_time(fn, runs: int) -> tuple[float, object]:
         out = fn()
         times.append(time.perf_counter() - t)
     return statistics.median(times), out
-
-
-def machine() -> str:
-    mem = "?"
-    try:
-        for line in Path("/proc/meminfo").read_text().splitlines():
-            if line.startswith("MemTotal"):
-                mem = f"{int(line.split()[1]) / 2**20:.1f} GiB"
-    except OSError:
-        pass
-    return (f"{platform.machine()}, {os.cpu_count()} cores, {mem} memory, "
-            f"Python {platform.python_version()}, networkx {nx.__version__}")
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -135,7 +119,7 @@ def main(argv: list[str] | None = None) -> int:
     command = "python benchmarks/bench_graphs.py" + (" --quick" if args.quick else "")
     stamp = datetime.datetime.now().strftime("%Y-%m-%d %H:%M")
     lines = [f"## bench_graphs: essential graphs, class sizes, sampling ({stamp})", "",
-             f"- machine: {machine()}", f"- command: `{command}`",
+             f"- machine: {machine('networkx')}", f"- command: `{command}`",
              f"- median of {runs} run(s); wall-clock seconds on a shared machine", "",
              "| case | size | median s |", "|---|---|---|"]
     lines += [f"| {a} | {b} | {c:.3f} |" for a, b, c in rows]
@@ -143,10 +127,7 @@ def main(argv: list[str] | None = None) -> int:
     print(text)
     if args.quick:
         return 0  # a smoke run: not recorded
-    if not RESULTS.exists():
-        RESULTS.write_text("# Benchmark results\n", encoding="utf-8")
-    with open(RESULTS, "a", encoding="utf-8") as fh:
-        fh.write("\n" + text)
+    append_results(text)
     return 0
 
 

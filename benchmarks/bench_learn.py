@@ -24,8 +24,6 @@ from __future__ import annotations
 import argparse
 import datetime
 import json
-import os
-import platform
 import shutil
 import statistics
 import sys
@@ -36,6 +34,7 @@ from pathlib import Path
 import networkx as nx
 import numpy as np
 import pandas as pd
+from _common import append_results, load_average, machine
 
 from pipeline.evidence.scoring import score
 from pipeline.graphs.essential import essential_graph
@@ -43,25 +42,6 @@ from pipeline.intake.design import Design, Regime
 from pipeline.simulation import KNOCKDOWN_FRACTION, LinearSEM, random_sem, simulate
 from pipeline.stats.moments import Moments
 from pipeline.workflow import learn, learn_from_moments
-
-RESULTS = Path(__file__).resolve().parent / "RESULTS.md"
-
-
-def _machine() -> str:
-    try:
-        mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
-        mem_text = f"{mem:.1f} GiB memory"
-    except (ValueError, OSError, AttributeError):
-        mem_text = "memory unknown"
-    return (f"{platform.machine()}, {os.cpu_count()} cores, {mem_text}, Python "
-            f"{platform.python_version()}, numpy {np.__version__}")
-
-
-def _load() -> str:
-    try:
-        return ", ".join(f"{v:.2f}" for v in os.getloadavg())
-    except OSError:
-        return "unknown"
 
 
 def _edges(out: Path) -> list:
@@ -216,9 +196,9 @@ def main(argv: list[str] | None = None) -> int:
 
     lines = [f"## bench_learn: learn end to end, the test store, a large run from moments "
              f"({datetime.datetime.now():%Y-%m-%d %H:%M})", "",
-             f"- machine: {_machine()}",
+             f"- machine: {machine('numpy')}",
              f"- command: `{' '.join(['python benchmarks/bench_learn.py', *sys.argv[1:]])}`",
-             f"- load average at start (other work on the machine): {_load()}", ""]
+             f"- load average at start (other work on the machine): {load_average()}", ""]
     lines.append("### 1-2. cold learn against read_csv; rerun at a new alpha from the store")
     rows, _ = bench_files(seed=1, repeats=args.repeats, alpha=0.01, new_alpha=0.001, **files)
     lines += rows + [""]
@@ -233,10 +213,7 @@ def main(argv: list[str] | None = None) -> int:
     text = "\n".join(lines)
     print(text)
     if not args.no_append:
-        if not RESULTS.exists():
-            RESULTS.write_text("# Benchmark results\n")
-        with open(RESULTS, "a", encoding="utf-8") as fh:
-            fh.write("\n\n" + text + "\n")
+        append_results("\n" + text)
     return 0
 
 

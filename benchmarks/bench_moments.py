@@ -16,16 +16,16 @@ import argparse
 import datetime as _dt
 import json
 import os
-import platform
 import shutil
 import statistics
 import subprocess
 import sys
 from pathlib import Path
 
+from _common import append_results, machine
+
 HERE = Path(__file__).resolve().parent
 WORK = HERE / "_work"
-RESULTS = HERE / "RESULTS.md"
 P = 100
 REGIMES = ("ctrl", "kd_V0", "kd_V1", "kd_V2", "kd_V3")
 
@@ -86,18 +86,6 @@ def run_child(method: str, data: Path, regimes: Path) -> dict:
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
-def machine() -> str:
-    mem = "?"
-    try:
-        for line in Path("/proc/meminfo").read_text().splitlines():
-            if line.startswith("MemTotal"):
-                mem = f"{int(line.split()[1]) / 2**20:.1f} GiB"
-    except OSError:
-        pass
-    return f"{os.cpu_count()} cores, {mem} memory, {platform.system()} {platform.machine()}, " \
-           f"Python {platform.python_version()}"
-
-
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, nargs="+", default=[100_000, 1_000_000])
@@ -145,11 +133,7 @@ def main(argv: list[str] | None = None) -> int:
     print("\n" + text)
     if args.no_record:
         return 0
-    if not RESULTS.exists():
-        RESULTS.write_text("# Benchmark results\n\nEach benchmark script appends a section.\n\n",
-                           encoding="utf-8")
-    with open(RESULTS, "a", encoding="utf-8") as fh:
-        fh.write("\n" + text)
+    append_results(text)
     return 0
 
 

@@ -21,19 +21,16 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
 
 import argparse  # noqa: E402
 import datetime  # noqa: E402
-import platform  # noqa: E402
 import sys  # noqa: E402
 import time  # noqa: E402
-from pathlib import Path  # noqa: E402
 
 import numpy as np  # noqa: E402
 import statsmodels.api as sm  # noqa: E402
+from _common import append_results, machine  # noqa: E402
 
 from pipeline.independence.gaussian import GaussianTester  # noqa: E402
 from pipeline.intake.design import Design, Regime  # noqa: E402
 from pipeline.stats.moments import Moments  # noqa: E402
-
-RESULTS = Path(__file__).resolve().parent / "RESULTS.md"
 
 
 def _data(p: int, k: int, n: int, seed: int) -> tuple[dict[str, np.ndarray], Design]:
@@ -93,18 +90,6 @@ def _naive_invariance(ref: np.ndarray, regime: np.ndarray, x, cond) -> None:
         _ = 2 * (llf[0] + llf[1] - llf[2])
 
 
-def _machine() -> str:
-    mem = "?"
-    try:
-        for line in Path("/proc/meminfo").read_text().splitlines():
-            if line.startswith("MemTotal"):
-                mem = f"{int(line.split()[1]) / 2**20:.1f} GiB"
-    except OSError:
-        pass
-    return (f"{platform.machine()}, {os.cpu_count()} cores, {mem} memory, "
-            f"Python {platform.python_version()}, numpy {np.__version__}")
-
-
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--variables", type=int, default=100)
@@ -156,7 +141,7 @@ def main(argv: list[str] | None = None) -> int:
     block = [
         f"## bench_tests: batched CI and invariance tests ({when})",
         "",
-        f"- machine: {_machine()}; single core (BLAS threads = 1); load average at start "
+        f"- machine: {machine('numpy')}; single core (BLAS threads = 1); load average at start "
         f"{load:.1f} (other work on the machine slows the wall-clock figures; CPU = process "
         f"time)",
         f"- command: `{command}`",
@@ -171,11 +156,7 @@ def main(argv: list[str] | None = None) -> int:
     text = "\n".join(block)
     print(text)
     if not args.no_append:
-        if not RESULTS.exists():
-            RESULTS.write_text("# Benchmark results\n\n")
-        with RESULTS.open("a") as fh:
-            fh.write("\n" + text)
-        print(f"appended to {RESULTS.name}")
+        print(f"appended to {append_results(text).name}")
     return 0
 
 
