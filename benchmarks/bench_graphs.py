@@ -33,7 +33,7 @@ from _common import append_results, machine
 from pipeline.graphs.counting import chain_components, class_size
 from pipeline.graphs.essential import essential_graph
 from pipeline.graphs.pdag import PDAG
-from pipeline.graphs.sampling import sample_dags
+from pipeline.graphs.sampling import sample_dags, sample_orientations
 
 
 def random_dag(n: int, degree: float, rng: random.Random) -> nx.DiGraph:
@@ -115,6 +115,9 @@ def main(argv: list[str] | None = None) -> int:
     # 4. uniform sampling from it
     t, _ = median_time(lambda: sample_dags(und, draws, seed=1), runs)
     rows.append((f"sample {draws} DAGs (count included)", "the class of case 3", t))
+    t, _ = median_time(lambda: sample_orientations(und, draws, seed=1), runs)
+    rows.append((f"sample {draws} orientations (the same draws, no graph objects)",
+                 "the class of case 3", t))
 
     command = "python benchmarks/bench_graphs.py" + (" --quick" if args.quick else "")
     stamp = datetime.datetime.now().strftime("%Y-%m-%d %H:%M")

@@ -59,11 +59,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _version() -> str:
-    try:
-        from importlib.metadata import version
+    from importlib.metadata import PackageNotFoundError, version
 
+    try:
         return version("orienteer")
-    except Exception:  # noqa: BLE001 - metadata missing in a source checkout
+    except PackageNotFoundError:  # a source checkout that was never installed
         return "0+unknown"
 
 

@@ -13,7 +13,7 @@ from scipy.stats import chisquare
 from pipeline.graphs import essential_graph
 from pipeline.graphs.counting import class_size
 from pipeline.graphs.pdag import PDAG
-from pipeline.graphs.sampling import enumerate_dags, sample_dags
+from pipeline.graphs.sampling import enumerate_dags, sample_dags, sample_orientations
 
 
 def v_structures(d: nx.DiGraph) -> set:
@@ -103,3 +103,15 @@ def test_sampling_reproducible_and_keeps_directed_edges():
 def test_sampling_rejects_non_chordal():
     with pytest.raises(ValueError, match="not chordal"):
         sample_dags(PDAG.from_networkx(nx.cycle_graph(5)), 1)
+
+
+def test_sample_orientations_match_sample_dags():
+    # the light form draws the same DAGs for the same seed (networkx edges as the reference)
+    g = PDAG("ABCDE")
+    for u, v in [("A", "B"), ("B", "C"), ("A", "C"), ("C", "D")]:
+        g.add_undirected(u, v)
+    g.add_directed("E", "D")
+    dags = sample_dags(g, 25, seed=5)
+    light = sample_orientations(g, 25, seed=5)
+    for d, edges in zip(dags, light, strict=True):
+        assert set(d.edges) == set(edges) | {("E", "D")}

@@ -11,12 +11,13 @@ from pipeline.graphs.essential import (
 )
 from pipeline.graphs.meek import Orientation, meek_closure
 from pipeline.graphs.pdag import PDAG, InterventionNode
-from pipeline.graphs.sampling import enumerate_dags, sample_dags
+from pipeline.graphs.sampling import enumerate_dags, sample_dags, sample_orientations
 from pipeline.graphs.validity import essential_graph_problems
 
 __all__ = [
     "PDAG", "InterventionNode", "augmented_graph", "Orientation", "meek_closure",
     "EdgeReason", "EssentialGraph", "essential_graph", "orient_pattern", "v_structures",
-    "chain_components", "class_size", "count_amos", "sample_dags", "enumerate_dags",
+    "chain_components", "class_size", "count_amos", "sample_dags", "sample_orientations",
+    "enumerate_dags",
     "essential_graph_problems",
 ]

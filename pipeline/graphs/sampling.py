@@ -31,7 +31,7 @@ import networkx as nx
 from pipeline.graphs.counting import AMOCounter, chain_components
 from pipeline.graphs.pdag import PDAG
 
-__all__ = ["sample_dags", "enumerate_dags"]
+__all__ = ["sample_dags", "sample_orientations", "enumerate_dags"]
 
 Node = Hashable
 
@@ -74,6 +74,24 @@ def sample_dags(g: PDAG, n: int, seed: int | None = None) -> list[nx.DiGraph]:
     ValueError
         If `n` is negative or a chain component is not chordal.
     """
+    directed = list(g.directed_edges()) if isinstance(g, PDAG) else []
+    out = []
+    for oriented in sample_orientations(g, n, seed):
+        d = nx.DiGraph()
+        d.add_nodes_from(g.nodes)
+        d.add_edges_from(directed)
+        d.add_edges_from(oriented)
+        out.append(d)
+    return out
+
+
+def sample_orientations(g: PDAG, n: int, seed: int | None = None) -> list[list[tuple]]:
+    """Like `sample_dags`, but each draw is only the list of `g`'s undirected edges as
+    directed in the drawn DAG (in the order of ``g.undirected_edges()``).
+
+    The same seed draws the same DAGs as `sample_dags`; building no graph objects, it is
+    the form to use when many draws are scored (experiment planning).
+    """
     try:
         n = operator.index(n)
     except TypeError:
@@ -82,7 +100,7 @@ def sample_dags(g: PDAG, n: int, seed: int | None = None) -> list[nx.DiGraph]:
         raise ValueError(f"n should be a non-negative integer, got {n!r}")
     counters = _check(g)
     rng = random.Random(seed)
-    directed, undirected = list(g.directed_edges()), list(g.undirected_edges())
+    undirected = list(g.undirected_edges())
     out = []
     for _ in range(n):
         rank: dict[Node, int] = {}
@@ -90,7 +108,7 @@ def sample_dags(g: PDAG, n: int, seed: int | None = None) -> list[nx.DiGraph]:
             c.count()  # fills the memo the draw reads
             order = _sample_order(c, frozenset(range(len(c.adj))), rng)
             rank.update((c.labels[v], i) for i, v in enumerate(order))
-        out.append(_to_dag(g, rank, directed, undirected))
+        out.append([(u, v) if rank[u] < rank[v] else (v, u) for u, v in undirected])
     return out
 
 
