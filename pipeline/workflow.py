@@ -17,10 +17,11 @@ then:
 
 from __future__ import annotations
 
+import gc
 import numbers
 import time
-from collections.abc import Callable, Sequence
-from contextlib import nullcontext
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager, nullcontext
 from pathlib import Path
 from typing import Any
 
@@ -94,6 +95,25 @@ def _check_paths(data: Any, regimes: Any) -> tuple[list[Path], Path]:
 
 
 # -- the workflow -------------------------------------------------------------------------------
+@contextmanager
+def _gc_paused() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector inside the block (restored afterwards).
+
+    The learner and the result files allocate tens of thousands of small objects (test
+    results, evidence records) that reference counting frees; with the collector on they
+    trigger a full collection of the whole heap (pandas, scipy, ...) that costs more than
+    a rerun from the store computes. Nothing computed depends on it. (Reading the data
+    files runs outside: its chunks are left to the collector.)
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           out: str | Path | None = None, alpha: float = 0.01,
           max_condition_size: int | None = None, targets: str = "declared",
@@ -181,16 +201,17 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                     "drop_missing": bool(drop_missing), "fingerprint": fingerprint}
         if seed is not None:
             settings["seed"] = seed
-        result = _learn(intake.design, intake.moments, intake=intake, store=store,
-                        fingerprint=fingerprint, alpha=alpha, max_condition_size=max_k,
-                        targets=targets, collider_rule=collider_rule, settings=settings,
-                        progress=progress, check=True)
-        result.run["from_store"] = stored is not None
-        result.run["seconds"] = time.perf_counter() - started
-        # 5. the files
-        if out is not None:
-            result.run["files"] = {k: str(v) for k, v in result.save(out).items()}
-            result.run["files"][STORE_NAME] = str(Path(out) / STORE_NAME)
+        with _gc_paused():
+            result = _learn(intake.design, intake.moments, intake=intake, store=store,
+                            fingerprint=fingerprint, alpha=alpha, max_condition_size=max_k,
+                            targets=targets, collider_rule=collider_rule, settings=settings,
+                            progress=progress, check=True)
+            result.run["from_store"] = stored is not None
+            result.run["seconds"] = time.perf_counter() - started
+            # 5. the files
+            if out is not None:
+                result.run["files"] = {k: str(v) for k, v in result.save(out).items()}
+                result.run["files"][STORE_NAME] = str(Path(out) / STORE_NAME)
     finally:
         if store is not None:
             store.close()
@@ -267,11 +288,13 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
         learner_design, dropped = _without_failed_targets(design, checked.failed_targets())
 
     # 4. the learner, asking its tests through the store
-    tester: Any = GaussianTester(moments, design)
     if store is not None:
-        from pipeline.independence.store import CachedTester
+        from pipeline.independence.cached import CachedTester
 
-        tester = CachedTester(tester, store, fingerprint, n_regimes=len(design.regimes))
+        tester: Any = CachedTester(GaussianTester(moments, design), store, fingerprint,
+                                   n_regimes=len(design.regimes))
+    else:
+        tester = GaussianTester(moments, design)
     if callable(progress):
         bars = nullcontext(progress)
     else:

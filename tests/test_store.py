@@ -9,7 +9,8 @@ import numpy as np
 import pytest
 
 from pipeline.independence.base import TestResults
-from pipeline.independence.store import CachedTester, TestStore
+from pipeline.independence.cached import CachedTester
+from pipeline.independence.store import TestStore
 from pipeline.intake.design import Design, Regime
 from pipeline.stats.moments import Moments
 
@@ -163,3 +164,78 @@ def test_two_processes_writing_one_store(tmp_path):
     # each writer: 60 batches of 100 own keys; plus 60 x 100 shared keys written once
     assert con.execute("SELECT COUNT(*) FROM tests").fetchone()[0] == 2 * 60 * 100 + 60 * 100
     con.close()
+
+
+class SignedTester(CountingTester):
+    """Answers with -0.0 and NaN among the statistics (what SQLite cannot keep as such)."""
+
+    def _answer(self, a, b, cond):
+        res = super()._answer(a, b, cond)
+        stat = np.asarray(res.statistic, float).copy()
+        stat[::3] = -0.0
+        stat[1::3] = np.nan
+        return TestResults(stat, res.pvalue, res.left_out)
+
+
+def test_packed_copy_answers_as_the_rows(tmp_path):
+    path = tmp_path / "tests.sqlite"
+    rng = np.random.default_rng(3)
+    x = rng.integers(0, 30, 400)
+    y = x + 1 + rng.integers(0, 20, 400)
+    cond = np.sort(rng.choice(60, size=(400, 2), replace=True), axis=1)
+    inner = SignedTester(k=3, leave_out=1)
+    with TestStore(path) as store, CachedTester(inner, store, "fp", 3) as t:
+        t.ci(x, y, cond)
+    # reference: the stored rows themselves, read with sqlite3 (the standard library)
+    con = sqlite3.connect(str(path))
+    rows = {(a, b, c): (s, p) for a, b, c, s, p in con.execute(
+        "SELECT x, y, cond, statistic, pvalue FROM tests")}
+    assert con.execute("SELECT COUNT(*) FROM held").fetchone()[0] == 1
+    con.close()
+    with TestStore(path) as store:
+        got = CachedTester(None, store, "fp", 3).ci(y, x, cond[:, ::-1])
+    for i in range(400):
+        s, p = rows[(int(x[i]), int(y[i]), f"{cond[i, 0]},{cond[i, 1]}")]
+        want_s = np.nan if s is None else s
+        np.testing.assert_array_equal(got.statistic[i], want_s)  # NaN equals NaN here
+        assert np.signbit(got.statistic[i]) == np.signbit(want_s)  # -0.0 comes back as 0.0
+        assert got.pvalue[i] == p
+    assert got.left_out[:, 1].all() and not got.left_out[:, [0, 2]].any()
+
+
+def test_stale_packed_copy_falls_back_to_rows(tmp_path):
+    path = tmp_path / "tests.sqlite"
+    x, y, cond = np.array([0, 1]), np.array([1, 2]), np.array([[3], [4]])
+    with TestStore(path) as store, CachedTester(CountingTester(), store, "fp", 3) as t:
+        t.ci(x, y, cond)
+    # a writer that keeps no packed copy (an older version) adds a row of the same level
+    with TestStore(path) as store:
+        fid = store.fingerprint_id("fp")
+        store.insert([(fid, "ci", "", 1, 5, 6, "7", 0.5, 0.25, None)])
+    with TestStore(path) as store:
+        t = CachedTester(None, store, "fp", 3)
+        got = t.ci(np.array([6, 0]), np.array([5, 1]), np.array([[7], [3]]))
+        assert got.pvalue[0] == 0.25 and t.reused == 2
+        t.flush()  # nothing computed: the copy is rewritten from the rows read
+    con = sqlite3.connect(str(path))
+    assert con.execute("SELECT n FROM held").fetchall() == [(3,)]
+    con.close()
+
+
+def test_large_indices_match_exactly(tmp_path):
+    # keys too wide for one 62-bit code are compared as bytes; the reference is a dict
+    rng = np.random.default_rng(5)
+    x = rng.integers(0, 2**40, 300)
+    y = x + rng.integers(1, 2**40, 300)
+    cond = np.sort(rng.integers(0, 2**40, (300, 3)), axis=1)
+    inner = CountingTester()
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        t = CachedTester(inner, store, "fp", 3)
+        first = t.ci(x[:200], y[:200], cond[:200])
+        again = t.ci(x[100:], y[100:], cond[100:])
+    assert inner.asked == 300 and t.reused == 100
+    ref = {(int(x[i]), int(y[i]), tuple(cond[i].tolist())): first.statistic[i]
+           for i in range(200)}
+    for i in range(100):
+        key = (int(x[100 + i]), int(y[100 + i]), tuple(cond[100 + i].tolist()))
+        assert again.statistic[i] == ref[key]

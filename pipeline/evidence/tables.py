@@ -12,6 +12,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import re
 from collections.abc import Iterable
 
 import pandas as pd
@@ -169,11 +170,25 @@ def edges_csv(records: Iterable[EdgeRecord]) -> str:
 
 def removed_csv(learned: Learned) -> str:
     """``removed.csv``: one row per non-adjacent pair, columns `REMOVED_COLUMNS`."""
-    # cells are built here directly (the generic `_cell` pass costs more than the writing)
+    # A row whose text cells need no quoting is formatted directly (what the csv writer
+    # would write: floats in their shortest exact form, None and non-finite as empty);
+    # the others go through the csv writer. The per-cell writer pass costs more than this.
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(REMOVED_COLUMNS)
-    w.writerows((r.x, r.y, ";".join(r.separating_set), _num(r.pvalue), _num(r.statistic),
-                 int(r.level), r.regime or "", ";".join(r.notes))
-                for r in learned.removed)
+    write, isfinite = buf.write, math.isfinite
+    for r in learned.removed:
+        p, s = r.pvalue, r.statistic
+        p = "" if p is None or not isfinite(p := float(p)) else repr(p)
+        s = "" if s is None or not isfinite(s := float(s)) else repr(s)
+        sep, notes, regime = ";".join(r.separating_set), ";".join(r.notes), r.regime or ""
+        if _NEEDS_QUOTES(f"{r.x}{r.y}{sep}{regime}{notes}"):
+            w.writerow((r.x, r.y, sep, p, s, int(r.level), regime, notes))
+        else:
+            write(f"{r.x},{r.y},{sep},{p},{s},{int(r.level)},{regime},{notes}\n")
     return buf.getvalue()
+
+
+#: Characters that may make the csv writer quote a cell (delimiter, quote, line ends) or
+#: refuse it (NUL): a row holding one is left to the writer.
+_NEEDS_QUOTES = re.compile('[,"\r\n\x00]').search

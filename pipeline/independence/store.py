@@ -14,9 +14,7 @@ A different fingerprint never reuses an entry. The file is opened in write-ahead
 mode with a busy timeout, so that two runs writing one store at once wait for each other
 instead of corrupting it; each batch of results is written in one transaction.
 
-`CachedTester` wraps any tester (the `Tester` protocol) with the store: it reads the
-stored results of a level in one query, asks the wrapped tester for the missing tests
-only and writes them.
+The caching tester that reads and writes it is `pipeline.independence.cached.CachedTester`.
 """
 
 from __future__ import annotations
@@ -33,11 +31,10 @@ from typing import Any
 
 import numpy as np
 
-from pipeline.independence.base import Tester, TestResults
 from pipeline.intake.design import Design, Regime
 from pipeline.stats.moments import Moments
 
-__all__ = ["TestStore", "CachedTester", "StoredInputs"]
+__all__ = ["TestStore", "StoredInputs"]
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS inputs (
@@ -68,6 +65,18 @@ CREATE TABLE IF NOT EXISTS tests (
     pvalue      REAL,
     left_out    TEXT,
     PRIMARY KEY (fid, kind, regime, size, x, y, cond)
+) WITHOUT ROWID;
+CREATE TABLE IF NOT EXISTS held (
+    fid         INTEGER NOT NULL,
+    kind        TEXT NOT NULL,
+    regime      TEXT NOT NULL,
+    size        INTEGER NOT NULL,
+    n           INTEGER NOT NULL,
+    keys        BLOB NOT NULL,
+    statistic   BLOB NOT NULL,
+    pvalue      BLOB NOT NULL,
+    left_out    TEXT NOT NULL,
+    PRIMARY KEY (fid, kind, regime, size)
 ) WITHOUT ROWID;
 CREATE TABLE IF NOT EXISTS runs (
     id          INTEGER PRIMARY KEY AUTOINCREMENT,
@@ -256,6 +265,99 @@ class TestStore:
             (fid, kind, regime, int(size))).fetchall()
         return dict(zip(map(_KEY, rows), map(_VALUE, rows), strict=True))
 
+    def load_arrays(self, fid: int, kind: str, regime: str, size: int
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, list[str | None]]:
+        """The results `load` gives, as arrays: key rows, statistics, p-values, left-out texts.
+
+        Key rows are ``(x, y, *cond)`` (int64, shape ``(n, size + 2)``, `cond` ascending as
+        written by `insert`); a NULL statistic or p-value is NaN. A row whose `cond` is
+        not as `insert` writes it is left out (it can match no test).
+        """
+        rows = self._con.execute(
+            "SELECT x, y, cond, statistic, pvalue, left_out FROM tests "
+            "WHERE fid = ? AND kind = ? AND regime = ? AND size = ?",
+            (fid, kind, regime, int(size))).fetchall()
+        size = int(size)
+        if not rows:
+            return (np.zeros((0, size + 2), dtype=np.int64), np.zeros(0), np.zeros(0), [])
+        xs, ys, conds, stats, pvals, left = zip(*rows, strict=True)
+        del rows
+        keys = np.empty((len(xs), size + 2), dtype=np.int64)
+        keys[:, 0] = xs
+        keys[:, 1] = ys
+        stat = np.array(stats, dtype=float)  # None (NULL) becomes NaN
+        pval = np.array(pvals, dtype=float)
+        flat = np.fromstring(",".join(conds), dtype=np.int64, sep=",") \
+            if size and all(conds) else np.zeros(0, dtype=np.int64)
+        if flat.size == len(conds) * size and (size or not any(conds)):
+            if size:
+                keys[:, 2:] = flat.reshape(-1, size)
+        else:  # a text that `insert` does not write: keep only the rows it would write
+            ok = np.zeros(len(conds), dtype=bool)
+            for i, c in enumerate(conds):
+                parts = c.split(",") if c else []
+                if len(parts) == size and all(t.isdigit() for t in parts):
+                    ints = sorted(map(int, parts))
+                    if ",".join(map(str, ints)) == c:
+                        keys[i, 2:] = ints
+                        ok[i] = True
+            keys, stat, pval = keys[ok], stat[ok], pval[ok]
+            left = tuple(t for t, o in zip(left, ok.tolist(), strict=True) if o)
+        return keys, stat, pval, list(left)
+
+    _COUNT = "SELECT COUNT(*) FROM tests WHERE fid = ? AND kind = ? AND regime = ? AND size = ?"
+
+    def load_held(self, fid: int
+                  ) -> dict[tuple[str, str, int],
+                            tuple[np.ndarray, np.ndarray, np.ndarray, list[str | None]]]:
+        """What `load_arrays` gives for each level of `fid`, from the packed copies written
+        by `put_held` (two queries), by ``(kind, regime, size)``.
+
+        A copy is left out when it is out of date: the tests table holds another number
+        of rows of its level (test rows are only ever added, so an equal count means the
+        same rows; the copies are read before the counts).
+        """
+        rows = self._con.execute(
+            "SELECT kind, regime, size, n, keys, statistic, pvalue, left_out FROM held "
+            "WHERE fid = ?", (fid,)).fetchall()
+        if not rows:
+            return {}
+        counts = {(k, r, z): n for k, r, z, n in self._con.execute(
+            "SELECT kind, regime, size, COUNT(*) FROM tests WHERE fid = ? "
+            "GROUP BY kind, regime, size", (fid,))}
+        out = {}
+        for kind, regime, size, n, keys, stat, pval, lefts in rows:
+            if counts.get((kind, regime, size)) != n:
+                continue
+            left: list[str | None] = [None] * n
+            for i, text in json.loads(lefts).items():
+                left[int(i)] = text
+            out[(kind, regime, size)] = (
+                np.frombuffer(keys, dtype="<i8").astype(np.int64).reshape(n, size + 2),
+                np.frombuffer(stat, dtype="<f8").astype(float),
+                np.frombuffer(pval, dtype="<f8").astype(float), left)
+        return out
+
+    def put_held(self, levels: list[tuple]) -> None:
+        """Keep packed copies of levels ``(fid, kind, regime, size, keys, statistic, pvalue,
+        left_out)`` (one transaction; held rows distinct, as read back from the tests table).
+
+        A level is kept only if the tests table holds exactly as many rows of it (it then
+        holds the same ones); otherwise its old copy, if any, is left to be found stale.
+        """
+        def put(c: sqlite3.Connection) -> None:
+            for fid, kind, regime, size, keys, stat, pval, left in levels:
+                where = (fid, kind, regime, int(size))
+                if c.execute(self._COUNT, where).fetchone()[0] != len(keys):
+                    continue
+                lefts = {str(i): t for i, t in enumerate(left) if t}
+                c.execute("INSERT OR REPLACE INTO held VALUES (?,?,?,?,?,?,?,?,?)",
+                          (*where, len(keys), np.ascontiguousarray(keys, dtype="<i8").tobytes(),
+                           np.ascontiguousarray(stat, dtype="<f8").tobytes(),
+                           np.ascontiguousarray(pval, dtype="<f8").tobytes(), json.dumps(lefts)))
+        if levels:
+            self._write(put)
+
     def insert(self, rows: list[tuple]) -> None:
         """Write rows ``(fid, kind, regime, size, x, y, cond, statistic, pvalue, left_out)``
         in one transaction (keys already stored are kept; a NaN is stored as NULL)."""
@@ -266,162 +368,3 @@ class TestStore:
 
 _KEY = operator.itemgetter(0, 1, 2)
 _VALUE = operator.itemgetter(3, 4, 5)
-
-
-def _cond_keys(cond: np.ndarray) -> list[str]:
-    """Canonical text of each conditioning set: sorted indices joined by commas."""
-    cond = np.asarray(cond, dtype=np.int64)
-    if cond.ndim != 2 or cond.shape[1] == 0:
-        return [""] * (cond.shape[0] if cond.ndim >= 1 else 0)
-    s = np.sort(cond, axis=1).astype(str)
-    return [",".join(row) for row in s.tolist()]
-
-
-def _mask_to_text(row: np.ndarray) -> str | None:
-    idx = np.flatnonzero(row)
-    return ",".join(map(str, idx.tolist())) if idx.size else None
-
-
-def _text_to_mask(text: str | None, k: int) -> np.ndarray:
-    m = np.zeros(k, dtype=bool)
-    if text:
-        m[[int(t) for t in text.split(",")]] = True
-    return m
-
-
-class CachedTester:
-    """A `Tester` that answers from a `TestStore` first and computes only what is missing.
-
-    The stored results of one kind, regime and conditioning-set size are read in one
-    query the first time a batch asks for them (the learner asks level by level). Newly
-    computed results are written in one transaction per level: they are held until a
-    batch of another conditioning-set size arrives, `FLUSH_ROWS` are pending, or
-    `flush` is called (call it when done; the context manager does).
-
-    Parameters
-    ----------
-    inner : Tester or None
-        Computes the tests the store lacks; None means every test must be stored
-        (a missing one raises `LookupError`).
-    store : TestStore
-    fingerprint : str
-        The input fingerprint; entries of other fingerprints are never used.
-    n_regimes : int
-        K, the width of the `left_out` masks (the number of regimes of the design).
-
-    Attributes
-    ----------
-    computed, reused : int
-        Tests computed by `inner` / answered from the store so far.
-    calls : int
-        Batches passed to `inner`.
-    """
-
-    FLUSH_ROWS = 50_000
-
-    def __init__(self, inner: Tester | None, store: TestStore, fingerprint: str,
-                 n_regimes: int) -> None:
-        self.inner = inner
-        self.store = store
-        self.fingerprint = fingerprint
-        self.n_regimes = int(n_regimes)
-        self.computed = 0
-        self.reused = 0
-        self.calls = 0
-        self._fid = store.fingerprint_id(fingerprint)
-        self._known: dict[tuple[str, str, int], dict] = {}
-        self._pending: list[tuple] = []
-        self._size: int | None = None
-
-    def flush(self) -> None:
-        """Write the pending results to the store (one transaction)."""
-        rows, self._pending = self._pending, []
-        self.store.insert(rows)
-
-    def __enter__(self) -> CachedTester:
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        self.flush()
-
-    def ci(self, x: np.ndarray, y: np.ndarray, cond: np.ndarray) -> TestResults:
-        """Test ``X_i _||_ Y_i | S_i`` given the regime (the pair is unordered)."""
-        x = np.asarray(x, dtype=np.int64)
-        y = np.asarray(y, dtype=np.int64)
-        cond = _as_cond(cond, x.shape[0])
-        lo, hi = np.minimum(x, y), np.maximum(x, y)
-        return self._answer("ci", "", lo, hi, cond,
-                            lambda idx: self.inner.ci(x[idx], y[idx], cond[idx]))
-
-    def invariance(self, regime: str, x: np.ndarray, cond: np.ndarray) -> TestResults:
-        """Test whether the law of ``X_i | S_i`` is the same in `regime` and the reference."""
-        x = np.asarray(x, dtype=np.int64)
-        cond = _as_cond(cond, x.shape[0])
-        return self._answer("invariance", str(regime), x, np.full_like(x, -1), cond,
-                            lambda idx: self.inner.invariance(regime, x[idx], cond[idx]))
-
-    def _answer(self, kind: str, regime: str, x: np.ndarray, y: np.ndarray, cond: np.ndarray,
-                compute) -> TestResults:
-        m, size, k = x.shape[0], cond.shape[1], self.n_regimes
-        stat = np.full(m, np.nan)
-        pval = np.full(m, np.nan)
-        left = np.zeros((m, k), dtype=bool)
-        if m == 0:
-            return TestResults(stat, pval, None)
-        if size != self._size:  # a new level: write the previous one
-            self.flush()
-            self._size = size
-        known = self._known.get((kind, regime, size))
-        if known is None:
-            known = self._known[(kind, regime, size)] = self.store.load(self._fid, kind, regime,
-                                                                        size)
-        # 1. answer from the store what it holds
-        xs, ys, keys = x.tolist(), y.tolist(), _cond_keys(cond)
-        if known:
-            hits = list(map(known.get, zip(xs, ys, keys, strict=True)))
-            missing = [i for i, h in enumerate(hits) if h is None]
-            found = [i for i, h in enumerate(hits) if h is not None]
-            if found:
-                got = [hits[i] for i in found]
-                # None (a NaN stored as NULL) becomes NaN again
-                stat[found] = np.array([g[0] for g in got], dtype=float)
-                pval[found] = np.array([g[1] for g in got], dtype=float)
-                for i, g in zip(found, got, strict=True):
-                    if g[2]:
-                        left[i] = _text_to_mask(g[2], k)
-        else:
-            missing = list(range(m))
-        self.reused += m - len(missing)
-        if not missing:
-            return TestResults(stat, pval, left if left.any() else None)
-        if self.inner is None:
-            raise LookupError(f"{len(missing)} {kind} tests are not in the store "
-                              f"and no tester was given to compute them")
-        # 2. compute the rest with the inner tester; queue them for the store
-        idx = np.asarray(missing, dtype=np.int64)
-        res = compute(idx)
-        self.calls += 1
-        self.computed += idx.size
-        stat[idx] = res.statistic
-        pval[idx] = res.pvalue
-        texts: list[str | None] = [None] * idx.size
-        if res.left_out is not None:
-            lo_mask = np.asarray(res.left_out, dtype=bool)
-            left[idx] = lo_mask
-            texts = [_mask_to_text(r) for r in lo_mask]
-        fid = self._fid
-        for j, i in enumerate(missing):
-            s, p = float(stat[i]), float(pval[i])
-            key = (xs[i], ys[i], keys[i])
-            known[key] = (None if s != s else s, None if p != p else p, texts[j])
-            self._pending.append((fid, kind, regime, size, *key, s, p, texts[j]))
-        if len(self._pending) >= self.FLUSH_ROWS:
-            self.flush()
-        return TestResults(stat, pval, left if left.any() else None)
-
-
-def _as_cond(cond: np.ndarray, m: int) -> np.ndarray:
-    cond = np.asarray(cond, dtype=np.int64)
-    if cond.ndim == 2:
-        return cond
-    return cond.reshape(m, -1) if m else np.zeros((0, 0), dtype=np.int64)

@@ -117,16 +117,20 @@ def learn_graph(
 
     # Step 5: the evidence, in variable order.
     learned = Learned(essential=essential)
-    for (i, j), s in sorted(sk.separations.items()):
-        learned.removed.append(RemovedPair(names[i], names[j], tuple(names[c] for c in s.cond),
-                                           s.pvalue, s.statistic, s.level, s.notes))
+    name = names.__getitem__
+    learned.removed.extend(
+        RemovedPair(names[i], names[j], tuple(map(name, s.cond)), s.pvalue, s.statistic,
+                    len(s.cond), s.notes)
+        for (i, j), s in sorted(sk.separations.items()))
     for (i, j), (mp, n) in sorted(sk.support.items()):
         learned.kept.append(KeptPair(names[i], names[j], mp, n))
     order = {r.name: n for n, r in enumerate(design.regimes)}
-    for (k, i), s in sorted(ts.separations.items(), key=lambda kv: (order[kv[0][0]], kv[0][1])):
-        learned.removed.append(RemovedPair(str(InterventionNode(k)), names[i],
-                                           tuple(names[c] for c in s.cond), s.pvalue,
-                                           s.statistic, s.level, s.notes, regime=k))
+    fnode = {k: str(InterventionNode(k)) for k in order}
+    learned.removed.extend(
+        RemovedPair(fnode[k], names[i], tuple(map(name, s.cond)), s.pvalue, s.statistic,
+                    len(s.cond), s.notes, regime=k)
+        for (k, i), s in sorted(ts.separations.items(),
+                                key=lambda kv: (order[kv[0][0]], kv[0][1])))
     for (k, i), (mp, n) in sorted(ts.support.items(), key=lambda kv: (order[kv[0][0]], kv[0][1])):
         learned.kept.append(KeptPair(str(InterventionNode(k)), names[i], mp, n, regime=k))
     learned.targets = {k: tuple(names[i] for i in adj) for k, adj in ts.adjacent.items()}

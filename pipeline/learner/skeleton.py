@@ -44,7 +44,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from itertools import combinations
+from itertools import chain, combinations
 
 import numpy as np
 
@@ -130,7 +130,7 @@ def learn_skeleton(
     level = 0
     while max_condition_size is None or level <= max_condition_size:
         # Step 1: the adjacencies at the start of the level (PC-stable).
-        nbrs = [np.flatnonzero(adj[i]).tolist() for i in range(p)]
+        nbrs = _neighbour_lists(adj)
         pairs: list[tuple[int, int]] = []
         rows_pair: list[int] = []
         rows_cond: list[tuple[int, ...]] = []
@@ -154,10 +154,12 @@ def learn_skeleton(
             break  # no pair has enough adjacencies: done
 
         # Step 2: every test of the level, batched.
-        pid = np.asarray(rows_pair, dtype=np.intp)
-        pa = np.asarray(pairs, dtype=np.intp)
+        pid = np.fromiter(rows_pair, dtype=np.intp, count=len(rows_pair))
+        pa = np.fromiter(chain.from_iterable(pairs), dtype=np.intp,
+                         count=2 * len(pairs)).reshape(len(pairs), 2)
         x, y = pa[pid, 0], pa[pid, 1]
-        cond = np.asarray(rows_cond, dtype=np.intp).reshape(len(rows_cond), level)
+        cond = np.fromiter(chain.from_iterable(rows_cond), dtype=np.intp,
+                           count=len(rows_cond) * level).reshape(len(rows_cond), level)
         res = run_batched(lambda a, b, c: tester.ci(a, b, c), x, y, cond,
                           label=f"level {level}", progress=progress)
         sk.tests_per_level[level] = sk.tests_per_level.get(level, 0) + len(pid)
@@ -169,25 +171,38 @@ def learn_skeleton(
         counts = np.bincount(pid, minlength=len(pairs))
         maxp = np.full(len(pairs), -np.inf)
         np.maximum.at(maxp, pid, np.where(np.isnan(pv), -np.inf, pv))
-        for k, (i, j) in enumerate(pairs):
-            r = chosen[k]
+        # (python lists: indexing numpy scalars one by one costs more than the loop)
+        gone = chosen >= 0
+        ri, rj = pa[gone, 0], pa[gone, 1]
+        adj[ri, rj] = adj[rj, ri] = False
+        pv_l = pv.tolist()
+        st_l = np.asarray(res.statistic, dtype=float).tolist()
+        plain = res.left_out is None
+        for pair, r, mp, n in zip(pairs, chosen.tolist(), maxp.tolist(), counts.tolist(),
+                                  strict=True):
             if r >= 0:
-                adj[i, j] = adj[j, i] = False
-                sk.separations[(i, j)] = Separation(
-                    rows_cond[r], float(pv[r]), float(res.statistic[r]),
-                    left_out_notes(res, r, regimes))
-                best.pop((i, j), None)
+                sk.separations[pair] = Separation(
+                    rows_cond[r], pv_l[r], st_l[r],
+                    () if plain else left_out_notes(res, r, regimes))
+                best.pop(pair, None)
             else:
-                old_p, old_n = best.get((i, j), (-np.inf, 0))
-                best[(i, j)] = (max(old_p, float(maxp[k])), old_n + int(counts[k]))
+                old_p, old_n = best.get(pair, (-np.inf, 0))
+                best[pair] = (max(old_p, mp), old_n + n)
         level += 1
 
-    for i in range(p):
-        for j in range(i + 1, p):
-            if adj[i, j]:
-                mp, n = best.get((i, j), (-np.inf, 0))
-                sk.support[(i, j)] = (None if n == 0 or mp == -np.inf else mp, n)
+    ii, jj = np.nonzero(np.triu(adj, 1))
+    for pair in zip(ii.tolist(), jj.tolist(), strict=True):
+        mp, n = best.get(pair, (-np.inf, 0))
+        sk.support[pair] = (None if n == 0 or mp == -np.inf else mp, n)
     return sk
+
+
+def _neighbour_lists(adj: np.ndarray) -> list[list[int]]:
+    """Positions adjacent to each node, ascending (one pass over the matrix)."""
+    ii, jj = np.nonzero(adj)
+    bounds = [0, *np.cumsum(np.bincount(ii, minlength=adj.shape[0])).tolist()]
+    flat = jj.tolist()
+    return [flat[a:b] for a, b in zip(bounds[:-1], bounds[1:], strict=True)]
 
 
 def candidate_sets(nb_i: list[int], nb_j: list[int], i: int, j: int,

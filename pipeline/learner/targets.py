@@ -158,17 +158,19 @@ def learn_targets(
             counts = np.bincount(pid, minlength=len(uniq))
             maxp = np.full(len(uniq), -np.inf)
             np.maximum.at(maxp, pid, np.where(np.isnan(pv), -np.inf, pv))
-            for n, key in enumerate(uniq):
-                if chosen[n] >= 0:
-                    r = chosen[n]
-                    out.separations[key] = Separation(conds[r], float(pv[r]),
-                                                      float(res.statistic[r]),
+            # (python lists: indexing numpy scalars one by one costs more than the loop)
+            pv_l = pv.tolist()
+            st_l = np.asarray(res.statistic, dtype=float).tolist()
+            for key, r, mp, n in zip(uniq, chosen.tolist(), maxp.tolist(), counts.tolist(),
+                                     strict=True):
+                if r >= 0:
+                    out.separations[key] = Separation(conds[r], pv_l[r], st_l[r],
                                                       left_out_notes(res, r, regimes))
                     pending.pop(key, None)
                     tested.pop(key, None)
                 else:
                     old_p, old_n = tested.get(key, (-np.inf, 0))
-                    tested[key] = (max(old_p, float(maxp[n])), old_n + int(counts[n]))
+                    tested[key] = (max(old_p, mp), old_n + n)
         level += 1
 
     # Step 3: what is left adjacent, per regime, and the findings.
@@ -176,10 +178,13 @@ def learn_targets(
         mp, n = tested.get(key, (-np.inf, 0))
         return (None if n == 0 or mp == -np.inf else mp, n)
 
+    left: dict[str, list[int]] = {}
+    for kk, i in pending:
+        left.setdefault(kk, []).append(i)
     for r in design.interventional:
         k = r.name
         if out.learned[k]:
-            adj = sorted(i for (kk, i) in pending if kk == k)
+            adj = sorted(left.get(k, ()))
             for i in adj:
                 out.support[(k, i)] = _support((k, i))
                 out.findings.append(TargetFinding(k, design.variables[i], "detected",
@@ -189,7 +194,7 @@ def learn_targets(
             for i in adj:
                 out.support[(k, i)] = (None, 0)
                 out.findings.append(TargetFinding(k, design.variables[i], "declared", None))
-            for i in sorted(i for (kk, i) in pending if kk == k):
+            for i in sorted(left.get(k, ())):
                 sup = _support((k, i))
                 out.unseparated[(k, i)] = sup
                 out.findings.append(TargetFinding(k, design.variables[i], "off-target", sup[0]))
