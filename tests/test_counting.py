@@ -8,23 +8,11 @@ import random
 
 import networkx as nx
 import pytest
+from dags import all_dags
 
 from pipeline.graphs import essential_graph
 from pipeline.graphs.counting import chain_components, class_size, count_amos
 from pipeline.graphs.pdag import PDAG
-
-
-def all_dags(n: int):
-    """Every labelled DAG on n nodes, from a simple generator of our own."""
-    nodes = list(range(n))
-    pairs = list(itertools.combinations(nodes, 2))
-    for states in itertools.product((0, 1, 2), repeat=len(pairs)):
-        d = nx.DiGraph()
-        d.add_nodes_from(nodes)
-        d.add_edges_from((a, b) if s == 1 else (b, a)
-                         for (a, b), s in zip(pairs, states, strict=True) if s)
-        if nx.is_directed_acyclic_graph(d):
-            yield d
 
 
 def class_key(d: nx.DiGraph):

@@ -13,6 +13,7 @@ import random
 
 import networkx as nx
 import pytest
+from dags import all_dags
 
 from pipeline.graphs import InterventionNode, essential_graph
 from pipeline.graphs.augmented import augmented_graph
@@ -20,18 +21,6 @@ from pipeline.graphs.essential import EdgeReason, orient_pattern
 from pipeline.graphs.pdag import PDAG
 
 _dsep = getattr(nx, "is_d_separator", None) or nx.d_separated
-
-
-def all_dags(nodes):
-    """Every labelled DAG on `nodes` (each pair: no edge, one way or the other)."""
-    pairs = list(itertools.combinations(nodes, 2))
-    for states in itertools.product((0, 1, 2), repeat=len(pairs)):
-        d = nx.DiGraph()
-        d.add_nodes_from(nodes)
-        d.add_edges_from((a, b) if s == 1 else (b, a)
-                         for (a, b), s in zip(pairs, states, strict=True) if s)
-        if nx.is_directed_acyclic_graph(d):
-            yield d
 
 
 def _subsets(items):
