@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import sys
 
 from rich import box
 from rich.console import Console
@@ -50,7 +51,8 @@ def run(args: argparse.Namespace) -> int:
         ignore = [c.strip() for c in ignore.split(",") if c.strip()]
     result = check(data, args.regimes, regime_column=args.regime_column,
                    ignore_columns=tuple(ignore), drop_missing=bool(args.drop_missing),
-                   reference=args.reference, alpha=float(args.alpha))
+                   reference=args.reference, alpha=float(args.alpha),
+                   progress=sys.stderr.isatty())
     print_result(result, Console())
     if args.out:
         for path in result.write(args.out).values():

@@ -266,7 +266,7 @@ class CheckResult:
 def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           regime_column: str = "regime", ignore_columns: Sequence[str] = (),
           drop_missing: bool = False, reference: str | None = None,
-          alpha: float = 0.01) -> CheckResult:
+          alpha: float = 0.01, progress: bool = False) -> CheckResult:
     """Read measurement files and a regimes file and check them (see the module docstring).
 
     Parameters
@@ -275,6 +275,7 @@ def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     regimes : path of ``regimes.csv``
     regime_column, ignore_columns, drop_missing, reference : as for `read_inputs`
     alpha : float in (0, 1), level of the target, response and control tests
+    progress : bool, show a progress display on standard error while reading
 
     Returns
     -------
@@ -291,7 +292,7 @@ def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
 
     intake = read_inputs(data, regimes, regime_column=regime_column,
                          ignore_columns=tuple(ignore_columns), drop_missing=drop_missing,
-                         reference=reference)
+                         reference=reference, progress=progress)
     return check_intake(intake, alpha=alpha)
 
 
