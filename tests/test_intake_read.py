@@ -299,26 +299,3 @@ def test_missing_data_file_through_the_command_line(tmp_path, monkeypatch, capsy
     code = main(["check", str(tmp_path / "nope.csv"), "--regimes", str(reg)])
     err = capsys.readouterr().err
     assert code == 2 and err.startswith("error:") and "nope.csv" in err
-
-
-def test_one_piece_and_chunked_reads_agree(tmp_path, monkeypatch):
-    # small CSVs are parsed in one piece, large ones in chunks: both give numpy's moments
-    import pipeline.intake.tables as tables
-
-    rng = np.random.default_rng(3)
-    frame = pd.DataFrame(rng.normal(size=(300, 3)) + 50.0, columns=["a", "b", "c"])
-    frame.insert(0, "regime", rng.choice(["ctrl", "kd"], size=300))
-    frame.to_csv(tmp_path / "d.csv", index=False)
-    (tmp_path / "r.csv").write_text("regime,targets\nctrl,\nkd,a\n")
-    whole = read_inputs([tmp_path / "d.csv"], tmp_path / "r.csv")
-    monkeypatch.setattr(tables, "WHOLE_FILE_BYTES", 0)  # every file now counts as large
-    monkeypatch.setattr(tables, "CHUNK_ROWS", 17)
-    chunked = read_inputs([tmp_path / "d.csv"], tmp_path / "r.csv")
-    for name in ("ctrl", "kd"):
-        rows = frame.loc[frame.regime == name, ["a", "b", "c"]].to_numpy()
-        for got in (whole, chunked):
-            k = got.moments.index(name)
-            # numpy's two-pass mean and covariance as the reference
-            assert np.allclose(got.moments.mean[k], rows.mean(axis=0), rtol=1e-12)
-            assert np.allclose(got.moments.scatter[k] / (len(rows) - 1),
-                               np.cov(rows, rowvar=False), rtol=1e-10)

@@ -101,10 +101,9 @@ def _check_arguments(data, regimes, regime_column, ignore_columns, test, chunk_r
     if test not in TESTS:
         raise InputError(f"--test {test}: unknown test{nearest_names(str(test), TESTS)}; "
                          f"choose one of {', '.join(TESTS)}")
-    if chunk_rows is not None and (isinstance(chunk_rows, bool)
-                                   or not isinstance(chunk_rows, (int, np.integer))
-                                   or chunk_rows < 1):
-        raise InputError(f"chunk_rows is {chunk_rows!r}; expected a positive integer or None")
+    if isinstance(chunk_rows, bool) or not isinstance(chunk_rows, (int, np.integer)) \
+            or chunk_rows < 1:
+        raise InputError(f"chunk_rows is {chunk_rows!r}; expected a positive integer")
     if not isinstance(regime_column, str) or not regime_column.strip():
         raise InputError(f"--regime-column {regime_column!r}: expected a column name")
     if isinstance(ignore_columns, str):
@@ -126,7 +125,7 @@ def _progress(enabled: bool):
 
 def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_column: str = "regime",
                 ignore_columns: Sequence[str] = (), drop_missing: bool = False,
-                reference: str | None = None, test: str = "gaussian", chunk_rows: int | None = None,
+                reference: str | None = None, test: str = "gaussian", chunk_rows: int = 100_000,
                 progress: bool = False, fingerprint: str | None = None) -> Intake:
     """Read measurement tables and the regimes file into a design and per-regime statistics.
 
@@ -146,11 +145,8 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         The reference regime, when the regimes file has no control.
     test : {"gaussian", "rank"}
         ``"rank"``: statistics of the normal scores of the pooled ranks (loads all rows).
-    chunk_rows : int, optional
-        Rows per chunk of the streaming pass. None (the default): a CSV file of at most
-        `pipeline.intake.tables.WHOLE_FILE_BYTES` is parsed in one piece (faster; memory
-        stays bounded by that size), larger files and Parquet in chunks of
-        `pipeline.intake.tables.CHUNK_ROWS` rows.
+    chunk_rows : int
+        Rows per chunk of the streaming pass.
     progress : bool
         Show a progress display on standard error.
     fingerprint : str, optional

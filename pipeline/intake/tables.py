@@ -25,11 +25,6 @@ import pandas as pd
 
 from pipeline.errors import InputError, nearest_names
 
-#: Rows per chunk of the streaming pass over large files.
-CHUNK_ROWS = 100_000
-#: CSV files up to this size are parsed in one piece (memory stays bounded by it).
-WHOLE_FILE_BYTES = 64 * 2**20
-
 __all__ = ["SUFFIXES", "NA_STRINGS", "TableHeader", "Chunk", "check_data_path", "read_header",
            "resolve_variables", "iter_chunks", "locate_row"]
 
@@ -190,11 +185,8 @@ def locate_row(header: TableHeader, data_row: int) -> str:
 
 
 def iter_chunks(header: TableHeader, variables: Sequence[str], regime_column: str,
-                chunk_rows: int | None = None) -> Iterator[Chunk]:
+                chunk_rows: int) -> Iterator[Chunk]:
     """Yield the rows of one file in chunks of at most `chunk_rows` rows.
-
-    With `chunk_rows` None, a CSV file of at most `WHOLE_FILE_BYTES` comes as one chunk
-    (the parser is faster in one piece) and anything larger in chunks of `CHUNK_ROWS`.
 
     Raises
     ------
@@ -204,35 +196,26 @@ def iter_chunks(header: TableHeader, variables: Sequence[str], regime_column: st
         are not UTF-8.
     """
     if header.kind == "csv":
-        if chunk_rows is None and header.path.stat().st_size > WHOLE_FILE_BYTES:
-            chunk_rows = CHUNK_ROWS
         yield from _csv_chunks(header, list(variables), regime_column, chunk_rows)
     else:
-        yield from _parquet_chunks(header, list(variables), regime_column,
-                                   chunk_rows or CHUNK_ROWS)
+        yield from _parquet_chunks(header, list(variables), regime_column, chunk_rows)
 
 
 def _csv_chunks(header: TableHeader, variables: list[str], regime_column: str,
-                chunk_rows: int | None) -> Iterator[Chunk]:
+                chunk_rows: int) -> Iterator[Chunk]:
     na = {v: list(NA_STRINGS) for v in variables}
     na[regime_column] = [""]
+    reader = pd.read_csv(
+        # every column is parsed (no usecols): the parser then rejects rows with extra cells
+        header.path, engine="c", chunksize=chunk_rows, header=0, names=list(header.columns),
+        dtype={regime_column: "category"}, keep_default_na=False, na_values=na,
+        skip_blank_lines=True, encoding="utf-8-sig")
     start = 0
     try:
-        with warnings.catch_warnings():
-            # a text cell makes the parser warn about mixed types: we report it ourselves
-            warnings.simplefilter("ignore", pd.errors.DtypeWarning)
-            reader = pd.read_csv(
-                # every column is parsed (no usecols): the parser then rejects rows with
-                # extra cells
-                header.path, engine="c", chunksize=chunk_rows, header=0,
-                names=list(header.columns), dtype={regime_column: "category"},
-                keep_default_na=False, na_values=na, skip_blank_lines=True,
-                encoding="utf-8-sig")
-        if chunk_rows is None:  # parsed in one piece: serve the frame as the only chunk
-            reader = _OnePiece(reader)
         with reader:
             while True:
                 with warnings.catch_warnings():
+                    # a text cell makes the parser warn about mixed types: we report it ourselves
                     warnings.simplefilter("ignore", pd.errors.DtypeWarning)
                     frame = next(reader, None)
                 if frame is None:
@@ -340,24 +323,3 @@ def _kind(t) -> str:
     if pa.types.is_temporal(t):
         return "dates or times"
     return str(t)
-
-
-class _OnePiece:
-    """A whole-file `pandas.read_csv` result behaving like its chunked reader (one chunk)."""
-
-    def __init__(self, frame: pd.DataFrame) -> None:
-        self._frames = [frame]
-
-    def __enter__(self) -> _OnePiece:
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        self._frames.clear()
-
-    def __iter__(self) -> Iterator[pd.DataFrame]:
-        return self
-
-    def __next__(self) -> pd.DataFrame:
-        if not self._frames:
-            raise StopIteration
-        return self._frames.pop()
