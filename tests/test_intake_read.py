@@ -299,3 +299,13 @@ def test_missing_data_file_through_the_command_line(tmp_path, monkeypatch, capsy
     code = main(["check", str(tmp_path / "nope.csv"), "--regimes", str(reg)])
     err = capsys.readouterr().err
     assert code == 2 and err.startswith("error:") and "nope.csv" in err
+
+
+def test_byte_order_mark_in_a_data_file(tmp_path):
+    # a spreadsheet's UTF-8 byte-order mark before the header is not part of a column name
+    (tmp_path / "d.csv").write_bytes("\ufeffregime,a,b\nctrl,1,2\nctrl,2,3.5\nctrl,3,1\n"
+                                     "kd,0,2\nkd,1,1\nkd,0,0.5\n".encode())
+    (tmp_path / "r.csv").write_text("regime,targets\nctrl,\nkd,a\n")
+    intake = read_inputs([tmp_path / "d.csv"], tmp_path / "r.csv")
+    assert intake.design.variables == ("a", "b")
+    assert np.allclose(intake.moments.mean[intake.moments.index("ctrl")], [2.0, 13 / 6])
