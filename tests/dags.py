@@ -20,3 +20,16 @@ def all_dags(nodes: int | Iterable) -> Iterator[nx.DiGraph]:
                          for (a, b), s in zip(pairs, states, strict=True) if s)
         if nx.is_directed_acyclic_graph(d):
             yield d
+
+
+def random_dag(nodes: int | Iterable, p: float, rng) -> nx.DiGraph:
+    """A random DAG: each pair, in the order of `nodes`, an edge forwards with chance `p`.
+
+    `rng` is a `random.Random`; its draws are one per pair, in order.
+    """
+    nodes = list(range(nodes)) if isinstance(nodes, int) else list(nodes)
+    d = nx.DiGraph()
+    d.add_nodes_from(nodes)
+    d.add_edges_from((u, v) for i, u in enumerate(nodes) for v in nodes[i + 1:]
+                     if rng.random() < p)
+    return d

@@ -13,7 +13,7 @@ import random
 
 import networkx as nx
 import pytest
-from dags import all_dags
+from dags import all_dags, random_dag
 
 from pipeline.graphs import InterventionNode, essential_graph
 from pipeline.graphs.augmented import augmented_graph
@@ -145,10 +145,7 @@ def test_single_target_on_all_but_one_identifies_random_dags():
     for _ in range(20):
         n = rng.randint(3, 9)
         names = [f"X{i}" for i in range(n)]
-        d = nx.DiGraph()
-        d.add_nodes_from(names)
-        d.add_edges_from((names[i], names[j]) for i in range(n) for j in range(i + 1, n)
-                         if rng.random() < 0.5)
+        d = random_dag(names, 0.5, rng)
         skip = rng.randrange(n)
         targets = {f"kd_{v}": [v] for i, v in enumerate(names) if i != skip}
         e = essential_graph(d, targets)

@@ -10,6 +10,7 @@ from pathlib import Path
 
 import networkx as nx
 import pytest
+from dags import random_dag
 
 from pipeline.errors import InputError
 from pipeline.evidence.identify import identify
@@ -153,10 +154,7 @@ def test_lost_without_matches_recomputing():
     for _ in range(25):
         n = rng.randint(3, 8)
         names = [f"V{i}" for i in range(n)]
-        dag = nx.DiGraph()
-        dag.add_nodes_from(names)
-        dag.add_edges_from((names[i], names[j]) for i in range(n) for j in range(i + 1, n)
-                           if rng.random() < 0.4)
+        dag = random_dag(names, 0.4, rng)
         regs = [Regime("ctrl", reference=True)] + [
             Regime(f"r{k}", tuple(rng.sample(names, rng.randint(1, 2)))) for k in range(3)]
         res = identify(dag, design(names, regs))

@@ -8,6 +8,7 @@ from collections import Counter
 
 import networkx as nx
 import pytest
+from dags import random_dag
 from scipy.stats import chisquare
 
 from pipeline.graphs import essential_graph
@@ -49,9 +50,7 @@ def test_enumeration_keeps_directed_edges_and_class():
     rng = random.Random(9)
     for _ in range(15):
         n = rng.randint(4, 7)
-        d = nx.DiGraph()
-        d.add_nodes_from(range(n))
-        d.add_edges_from((i, j) for i in range(n) for j in range(i + 1, n) if rng.random() < 0.5)
+        d = random_dag(n, 0.5, rng)
         targets = {"r": [rng.randrange(n)]} if rng.random() < 0.5 else {}
         e = essential_graph(d, targets)
         dags = list(enumerate_dags(e.graph))

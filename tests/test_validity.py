@@ -5,6 +5,7 @@ from __future__ import annotations
 import random
 
 import networkx as nx
+from dags import random_dag
 
 from pipeline.graphs import essential_graph
 from pipeline.graphs.pdag import PDAG
@@ -49,9 +50,7 @@ def test_computed_essential_graphs_are_valid():
     rng = random.Random(2)
     for _ in range(30):
         n = rng.randint(2, 10)
-        d = nx.DiGraph()
-        d.add_nodes_from(range(n))
-        d.add_edges_from((i, j) for i in range(n) for j in range(i + 1, n) if rng.random() < 0.4)
+        d = random_dag(n, 0.4, rng)
         targets = {"r": [rng.randrange(n)]} if rng.random() < 0.5 else {}
         assert essential_graph_problems(essential_graph(d, targets).graph) == []
 

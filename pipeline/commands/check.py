@@ -11,7 +11,7 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
-from pipeline.errors import InputError
+from pipeline.commands.inputs import add_input_arguments, measurement_inputs
 from pipeline.evidence.check import MOVED, CheckResult, check
 from pipeline.evidence.formatting import format_p
 
@@ -22,37 +22,16 @@ MAX_COLUMNS = 60
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("data", nargs="*", metavar="DATA",
-                        help="measurement files (CSV or Parquet), read as one table")
-    parser.add_argument("--regimes", metavar="REGIMES", help="regimes.csv: regime,targets[,known]")
+    add_input_arguments(parser)
     parser.add_argument("--out", metavar="DIR", help="also write check.json and response.csv here")
-    parser.add_argument("--regime-column", default="regime", metavar="NAME",
-                        help="column of the measurements that labels the regime (default regime)")
-    parser.add_argument("--ignore-columns", default="", metavar="A,B",
-                        help="non-numeric or unwanted columns to leave out")
-    parser.add_argument("--drop-missing", action="store_true",
-                        help="drop rows with missing or non-finite values (and say how many)")
-    parser.add_argument("--reference", metavar="REGIME",
-                        help="the reference regime when no regime has empty targets")
     parser.add_argument("--alpha", type=float, default=0.01,
                         help="level of the target, response and control tests (default 0.01)")
 
 
 def run(args: argparse.Namespace) -> int:
-    data = list(args.data or [])
-    if isinstance(args.data, str):  # a single path from a --config file
-        data = [args.data]
-    if not data:
-        raise InputError("DATA: no measurement file given; name one or more CSV or Parquet files")
-    if not args.regimes:
-        raise InputError("--regimes: missing; name the regimes file (columns regime,targets)")
-    ignore = args.ignore_columns
-    if isinstance(ignore, str):
-        ignore = [c.strip() for c in ignore.split(",") if c.strip()]
-    result = check(data, args.regimes, regime_column=args.regime_column,
-                   ignore_columns=tuple(ignore), drop_missing=bool(args.drop_missing),
-                   reference=args.reference, alpha=float(args.alpha),
-                   progress=sys.stderr.isatty())
+    inputs = measurement_inputs(args)
+    result = check(inputs.data, inputs.regimes, alpha=float(args.alpha),
+                   progress=sys.stderr.isatty(), **inputs.options)
     print_result(result, Console())
     if args.out:
         for path in result.write(args.out).values():

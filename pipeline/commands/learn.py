@@ -9,6 +9,7 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
+from pipeline.commands.inputs import add_input_arguments, measurement_inputs
 from pipeline.errors import InputError
 from pipeline.evidence.formatting import format_p
 from pipeline.evidence.result import LearnResult
@@ -23,9 +24,7 @@ MAX_ROWS = 40
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("data", nargs="*", metavar="DATA",
-                        help="measurement files (CSV or Parquet), read as one table")
-    parser.add_argument("--regimes", metavar="REGIMES", help="regimes.csv: regime,targets[,known]")
+    add_input_arguments(parser)
     parser.add_argument("--out", metavar="DIR",
                         help="output folder (result files and the test store tests.sqlite)")
     parser.add_argument("--alpha", type=float, default=0.01,
@@ -35,8 +34,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--targets", default="declared", metavar="|".join(TARGET_MODES),
                         help="take declared targets as given, or learn them all from the data "
                              "(regimes with known=no are always learned; default declared)")
-    parser.add_argument("--reference", metavar="REGIME",
-                        help="the reference regime when no regime has empty targets")
     parser.add_argument("--bootstrap", type=int, default=0, metavar="B",
                         help="bootstrap resamples for edge stability (not available yet: 0)")
     parser.add_argument("--seed", type=int, default=None, metavar="S",
@@ -47,12 +44,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="where to compute: local (default) or dask (not available yet)")
     parser.add_argument("--scheduler", metavar="ADDRESS",
                         help="address of a running Dask scheduler (with --engine dask)")
-    parser.add_argument("--regime-column", default="regime", metavar="NAME",
-                        help="column of the measurements that labels the regime (default regime)")
-    parser.add_argument("--ignore-columns", default="", metavar="A,B",
-                        help="non-numeric or unwanted columns to leave out")
-    parser.add_argument("--drop-missing", action="store_true",
-                        help="drop rows with missing or non-finite values (and say how many)")
     parser.add_argument("--test", default="gaussian", metavar="|".join(TESTS),
                         help="gaussian (default) or rank (normal scores of pooled ranks)")
     parser.add_argument("--collider-rule", default="majority", metavar="|".join(COLLIDER_RULES),
@@ -79,25 +70,16 @@ def _check_unsupported(args: argparse.Namespace) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    data = [args.data] if isinstance(args.data, str) else list(args.data or [])
-    if not data:
-        raise InputError("DATA: no measurement file given; name one or more CSV or Parquet files")
-    if not args.regimes:
-        raise InputError("--regimes: missing; name the regimes file (columns regime,targets)")
+    inputs = measurement_inputs(args)
     if not args.out:
         raise InputError("--out: missing; name the folder for the result files")
     _check_unsupported(args)
-    ignore = args.ignore_columns
-    if isinstance(ignore, str):
-        ignore = [c.strip() for c in ignore.split(",") if c.strip()]
     console = Console()
     with Progress() as bars:
-        result = learn(data, args.regimes, out=args.out, alpha=args.alpha,
+        result = learn(inputs.data, inputs.regimes, out=args.out, alpha=args.alpha,
                        max_condition_size=args.max_condition_size, targets=args.targets,
-                       reference=args.reference, regime_column=args.regime_column,
-                       ignore_columns=tuple(ignore), drop_missing=bool(args.drop_missing),
                        test=args.test, collider_rule=args.collider_rule, seed=args.seed,
-                       progress=bars)
+                       progress=bars, **inputs.options)
     print_result(result, console)
     print_files(Path(args.out), console)
     return 0
