@@ -22,6 +22,10 @@ test: $(VENV)/.test
 	$(PY) -m ruff check pipeline tests benchmarks data/demo
 	$(PY) -m pytest -q
 
+# every benchmark script, one after the other (each appends its table to benchmarks/RESULTS.md)
+bench: $(VENV)/.test
+	for script in benchmarks/bench_*.py; do $(PY) $$script || exit 1; done
+
 lint: $(VENV)/.test
 	$(PY) -m ruff check pipeline tests benchmarks data/demo
 

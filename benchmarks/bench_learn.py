@@ -36,9 +36,9 @@ import numpy as np
 import pandas as pd
 from _common import append_results, load_average, machine
 
-from pipeline.evidence.scoring import score
+from pipeline.analyses.scoring import score
+from pipeline.design import Design, Regime
 from pipeline.graphs.essential import essential_graph
-from pipeline.intake.design import Design, Regime
 from pipeline.simulation import KNOCKDOWN_FRACTION, LinearSEM, random_sem, simulate
 from pipeline.stats.moments import Moments
 from pipeline.workflow import learn, learn_from_moments

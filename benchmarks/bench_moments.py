@@ -39,7 +39,7 @@ if method == "pandas":
     seconds, cpu = time.perf_counter() - t, time.process_time() - c
     rows = len(frame)
 else:
-    from pipeline.intake import read_inputs
+    from pipeline.intake.read import read_inputs
     t, c = time.perf_counter(), time.process_time()
     intake = read_inputs([data], regimes)
     seconds, cpu = time.perf_counter() - t, time.process_time() - c

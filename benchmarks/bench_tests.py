@@ -28,8 +28,8 @@ import numpy as np  # noqa: E402
 import statsmodels.api as sm  # noqa: E402
 from _common import append_results, machine  # noqa: E402
 
+from pipeline.design import Design, Regime  # noqa: E402
 from pipeline.independence.gaussian import GaussianTester  # noqa: E402
-from pipeline.intake.design import Design, Regime  # noqa: E402
 from pipeline.stats.moments import Moments  # noqa: E402
 
 

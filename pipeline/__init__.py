@@ -30,9 +30,9 @@ __all__ = [
 
 _WHERE = {
     "learn": "pipeline.workflow",
-    "check": "pipeline.evidence.check",
+    "check": "pipeline.analyses.check",
     "simulate": "pipeline.simulation",
-    "identify": "pipeline.evidence.identify",
+    "identify": "pipeline.analyses.identify",
     "read_inputs": "pipeline.intake.read",
     "read_regimes": "pipeline.intake.regimes",
     "essential_graph": "pipeline.graphs.essential",

@@ -54,12 +54,13 @@ import pyarrow.csv as pa_csv
 
 from pipeline.errors import InputError
 from pipeline.fileio import atomic_write, write_text
+from pipeline.options import SIMULATION_KINDS
 
 __all__ = ["KINDS", "LinearSEM", "Simulation", "simulate", "random_sem"]
 
 #: The kinds of intervention `LinearSEM.sample` knows; ``knockout`` (the target set to
 #: the constant ``floor``) serves hand-built scenarios such as the demo data.
-KINDS = ("knockdown", "perfect", "shift", "scale")
+KINDS = SIMULATION_KINDS
 _ALL_KINDS = KINDS + ("knockout",)
 _PREFIX = {"knockdown": "kd", "perfect": "do", "shift": "up", "scale": "noisy"}
 #: Fraction of the level a knockdown of strength 1 removes (see the module docstring).

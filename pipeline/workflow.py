@@ -7,7 +7,7 @@ then:
 2. with an output folder, opens ``tests.sqlite`` there; if the store holds the
    statistics of that fingerprint, it takes them from there and parses no data file,
    else it reads the inputs (`pipeline.intake.read.read_inputs`) and stores them;
-3. checks the inputs from the statistics (`pipeline.evidence.check.check_intake`);
+3. checks the inputs from the statistics (`pipeline.analyses.check.check_intake`);
 4. runs the learner (`pipeline.learner.pc.learn_graph`) with the Gaussian tester behind
    the store, so that only tests never run before are computed;
 5. wraps the outcome in a `LearnResult` and, with an output folder, saves its files.
@@ -18,80 +18,41 @@ then:
 from __future__ import annotations
 
 import gc
-import numbers
 import time
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager, nullcontext
 from pathlib import Path
 from typing import Any
 
-from pipeline.errors import InputError, nearest_names
-from pipeline.evidence.result import LearnResult
-from pipeline.intake.design import Design
+from pipeline.design import Design
+from pipeline.errors import InputError
+from pipeline.options import (
+    COLLIDER_RULES,
+    TARGET_MODES,
+    TESTS,
+    check_alpha,
+    check_choice,
+    check_data_paths,
+    check_max_condition_size,
+    check_regimes_path,
+    split_names,
+)
+from pipeline.results.learn import LearnResult
 from pipeline.stats.moments import Moments
 
 __all__ = ["learn", "learn_from_moments", "TARGET_MODES", "TESTS", "COLLIDER_RULES",
            "STORE_NAME"]
 
-TARGET_MODES = ("declared", "learn")
-TESTS = ("gaussian", "rank")
-COLLIDER_RULES = ("majority", "conservative", "standard")
 #: The store's file name in the output folder.
 STORE_NAME = "tests.sqlite"
 
 ProgressArg = bool | Callable[[str, int, int], None] | None
 
 
-# -- validation (once, at the public entry) ------------------------------------------------------
-def _choice(name: str, value: Any, allowed: tuple[str, ...]) -> str:
-    if value not in allowed:
-        raise InputError(f"{name} {value!r}: not a choice{nearest_names(str(value), allowed)}; "
-                         f"use one of {', '.join(allowed)}")
-    return str(value)
-
-
-def _check_alpha(alpha: Any) -> float:
-    if isinstance(alpha, bool) or not isinstance(alpha, numbers.Real) or not 0 < alpha < 1:
-        raise InputError(f"--alpha {alpha!r}: expected a number strictly between 0 and 1 "
-                         f"(for instance 0.01)")
-    return float(alpha)
-
-
-def _check_max_k(k: Any) -> int | None:
-    if k is None:
-        return None
-    if isinstance(k, bool) or not isinstance(k, numbers.Integral) or k < 0:
-        raise InputError(f"--max-condition-size {k!r}: expected a whole number >= 0, or no "
-                         f"value for no limit")
-    return int(k)
-
-
 def _check_options(alpha, max_condition_size, targets, test, collider_rule):
-    return (_check_alpha(alpha), _check_max_k(max_condition_size),
-            _choice("--targets", targets, TARGET_MODES), _choice("--test", test, TESTS),
-            _choice("--collider-rule", collider_rule, COLLIDER_RULES))
-
-
-def _check_paths(data: Any, regimes: Any) -> tuple[list[Path], Path]:
-    if data is None or (isinstance(data, (list, tuple)) and not data):
-        raise InputError("DATA: no data file given; name one or more CSV or Parquet files")
-    if isinstance(data, (str, Path)):
-        data = [data]
-    paths = []
-    for d in data:
-        if not isinstance(d, (str, Path)):
-            raise InputError(f"DATA: {type(d).__name__} given; expected paths of CSV or "
-                             f"Parquet files")
-        p = Path(d)
-        if not p.is_file():
-            raise InputError(f"data file {p}: no such file; check the path")
-        paths.append(p)
-    if regimes is None:
-        raise InputError("--regimes: no regimes file given; pass --regimes REGIMES.csv")
-    r = Path(regimes)
-    if not r.is_file():
-        raise InputError(f"regimes file {r}: no such file; check the path given to --regimes")
-    return paths, r
+    return (check_alpha(alpha), check_max_condition_size(max_condition_size),
+            check_choice("--targets", targets, TARGET_MODES), check_choice("--test", test, TESTS),
+            check_choice("--collider-rule", collider_rule, COLLIDER_RULES))
 
 
 # -- the workflow -------------------------------------------------------------------------------
@@ -158,12 +119,10 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     # 0. validate everything once
     alpha, max_k, targets, test, collider_rule = _check_options(
         alpha, max_condition_size, targets, test, collider_rule)
-    paths, regimes_path = _check_paths(data, regimes)
+    paths, regimes_path = check_data_paths(data), check_regimes_path(regimes)
     if out is not None and Path(out).exists() and not Path(out).is_dir():
         raise InputError(f"--out {out}: is a file; name a folder for the result files")
-    if isinstance(ignore_columns, str):
-        ignore_columns = [c for c in ignore_columns.split(",")]
-    ignore = tuple(str(c).strip() for c in ignore_columns if str(c).strip())
+    ignore = split_names(ignore_columns)
     started = time.perf_counter()
 
     from pipeline.intake.read import Intake, read_inputs
@@ -274,7 +233,7 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
     # 3. the input check, from the statistics alone
     checked = None
     if check:
-        from pipeline.evidence.check import check_intake
+        from pipeline.analyses.check import check_intake
         from pipeline.intake.read import Intake
 
         if intake is None:

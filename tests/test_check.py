@@ -1,4 +1,4 @@
-"""Tests of pipeline.evidence.check and ``orienteer check``, on simulated experiments."""
+"""Tests of pipeline.analyses.check and ``orienteer check``, on simulated experiments."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from pipeline.analyses.check import MOVED, NOT_MOVED, check, check_intake
 from pipeline.cli import main
+from pipeline.design import Design, Regime
 from pipeline.errors import InputError
-from pipeline.evidence.check import MOVED, NOT_MOVED, check, check_intake
-from pipeline.intake.design import Design, Regime
 from pipeline.simulation import simulate
 from pipeline.stats.moments import Moments
 
@@ -87,7 +87,7 @@ def test_response_matrix_reads_the_descendants():
                 assert abs(resp.shift[i, j]) < 0.15, (name, v)
     assert n_down > len(resp.regimes)  # some descendants beyond the targets themselves
     frame = res.response_frame()
-    assert list(frame.columns) == ["regime", "variable", "shift", "pvalue"]
+    assert list(frame.columns) == ["regime", "variable", "shift", "sd_ratio", "pvalue", "adjusted"]
     assert len(frame) == len(resp.regimes) * len(resp.variables)
 
 
@@ -164,7 +164,7 @@ def test_cli_writes_check_json_and_response_csv(tmp_path, capsys):
     assert d["controls"]["verdict"] in ("agree", "differ")
     assert {t["regime"] for t in d["targets"]} == set(sim.regimes["regime"][2:])
     frame = pd.read_csv(out / "response.csv")
-    assert list(frame.columns) == ["regime", "variable", "shift", "pvalue"]
+    assert list(frame.columns) == ["regime", "variable", "shift", "sd_ratio", "pvalue", "adjusted"]
     assert len(frame) == 2 * 5
     # the API entry reads the same files to the same numbers
     res = check(tmp_path / "in" / "data.csv", tmp_path / "in" / "regimes.csv")
@@ -178,7 +178,7 @@ def test_cli_input_errors_exit_2(tmp_path, capsys):
     assert "error: --regimes" in capsys.readouterr().err
     assert main(["check", str(tmp_path / "data.csv"), "--regimes",
                  str(tmp_path / "regimes.csv"), "--alpha", "2"]) == 2
-    assert "error: alpha" in capsys.readouterr().err
+    assert "error: --alpha" in capsys.readouterr().err
     assert not (tmp_path / "check.json").exists()
 
 

@@ -97,3 +97,14 @@ def test_bad_command_line_exits_2():
 def test_nearest_names():
     assert "X10" in nearest_names("X1O", ["X1", "X10", "Y"])
     assert nearest_names("zzz", ["X1"]) == ""
+
+
+def test_the_parser_is_built_without_heavy_imports():
+    # start-up cost: building every command's parser must not import the numerical stack
+    # (checked in a fresh interpreter through sys.modules, the interpreter's own record)
+    code = ("import sys, pipeline.cli; pipeline.cli.build_parser(); "
+            "print(sorted(m for m in ('numpy', 'pandas', 'scipy', 'networkx', 'rich', "
+            "'pipeline.learner', 'pipeline.workflow') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True).stdout.strip()
+    assert out == "[]"

@@ -7,7 +7,7 @@ import json
 import pytest
 
 from pipeline import cli
-from pipeline.evidence.result import RESULT_FILES
+from pipeline.results.files import RESULT_FILES
 from pipeline.simulation import simulate
 
 

@@ -1,4 +1,4 @@
-"""Tests of pipeline.report.drawing: the SVG drawing of the learned graph in report.html.
+"""Tests of pipeline.results.drawing: the SVG drawing of the learned graph in report.html.
 
 The outside references: the standard library XML parser (the SVG must be well-formed and
 its names escaped) and networkx (layers of a DAG against ``topological_generations``).
@@ -12,16 +12,16 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from pipeline.evidence.schema import EdgeRecord
-from pipeline.intake.design import Design, Regime
-from pipeline.report.drawing import (
+from pipeline.design import Design, Regime
+from pipeline.results.drawing import (
     COLOURS,
     MAX_DRAWN,
     MAX_WITH_ISOLATED,
     graph_section,
     graph_svg,
 )
-from pipeline.report.html import render_report
+from pipeline.results.report import render_report
+from pipeline.results.schema import EdgeRecord
 from pipeline.simulation import simulate
 from pipeline.stats.moments import Moments
 from pipeline.workflow import learn_from_moments
@@ -177,7 +177,7 @@ def test_report_page_of_a_learned_graph():
     moments = Moments.from_samples({r.name: groups[r.name] for r in design.regimes}, variables)
     result = learn_from_moments(design, moments)
     assert result.edge_records  # the simulated graph has edges
-    page = render_report(result)
+    page = render_report(result.record(), result.check)
     assert "<h2>Graph</h2>" in page and "<svg" in page
     assert "http://" not in page and "https://" not in page and "<script" not in page
     root = _parse(page[page.index("<svg"):page.index("</svg>") + 6])

@@ -11,11 +11,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from pipeline.design import Design, Regime
 from pipeline.errors import InputError
 from pipeline.independence.fisher_z import fisher_z
 from pipeline.independence.gaussian import GaussianTester
 from pipeline.independence.invariance import invariance_lr, response_matrix
-from pipeline.intake.design import Design, Regime
 from pipeline.stats.moments import Moments
 
 VARIABLES = ("A", "B", "C", "D", "E")

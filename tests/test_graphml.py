@@ -2,8 +2,8 @@
 
 import networkx as nx
 
-from pipeline.evidence.graphml import graphml_text
-from pipeline.evidence.schema import EdgeRecord
+from pipeline.results.graphml import graphml_text
+from pipeline.results.schema import EdgeRecord
 
 
 def test_special_characters_and_numbers_survive(tmp_path):

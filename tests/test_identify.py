@@ -12,10 +12,10 @@ import networkx as nx
 import pytest
 from dags import random_dag
 
+from pipeline.analyses.identify import identify
+from pipeline.design import Design, Regime
 from pipeline.errors import InputError
-from pipeline.evidence.identify import identify
-from pipeline.evidence.schema import ResultRecord
-from pipeline.intake.design import Design, Regime
+from pipeline.results.schema import ResultRecord
 
 ROOT = Path(__file__).resolve().parents[1]
 

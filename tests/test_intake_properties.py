@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from pipeline.errors import InputError
-from pipeline.intake import Intake, read_inputs
+from pipeline.intake.read import Intake, read_inputs
 
 NAMES = ["X1", "X2", "X3", "regime", "", "X1 ", "plate"]
 CELLS = ["1", "2.5", "-3e2", "0", "abc", "NaN", "nan", "inf", "-inf", "", "NA", "1e400",

@@ -18,7 +18,7 @@ import pytest
 from scipy import stats
 
 from pipeline.errors import InputError
-from pipeline.intake import Intake, read_inputs
+from pipeline.intake.read import Intake, read_inputs
 from pipeline.stats.fingerprint import fingerprint_inputs
 
 ROOT = Path(__file__).resolve().parents[1]

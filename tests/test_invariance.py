@@ -13,8 +13,8 @@ import pytest
 import statsmodels.api as sm
 from scipy import stats
 
+from pipeline.design import Design, Regime
 from pipeline.independence.invariance import ResponseMatrix, invariance_lr, response_matrix
-from pipeline.intake.design import Design, Regime
 from pipeline.stats.moments import Moments, merge_moments
 
 VARIABLES = ("A", "B", "C", "D", "E")
@@ -194,7 +194,8 @@ def test_response_matrix_against_raw_rows():
     assert resp.pvalue[0, 4] == 0.0  # a variance collapsed to zero is a shift
     assert resp.shifted(1e-6)[0, 0] and resp.shifted(1e-6)[1, 2]
     frame = resp.to_frame()
-    assert list(frame.columns) == ["regime", "variable", "shift", "statistic", "pvalue"]
+    assert list(frame.columns) == ["regime", "variable", "shift", "sd_ratio", "statistic",
+                                   "pvalue", "adjusted"]
     assert len(frame) == 10 and frame.iloc[7]["regime"] == "oe_C"
     assert frame.iloc[7]["variable"] == "C"
     assert "kd_A" in resp.summary()

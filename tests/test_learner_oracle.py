@@ -14,8 +14,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
+from pipeline.design import Design, Regime
 from pipeline.graphs.essential import essential_graph
-from pipeline.intake.design import Design, Regime
 from pipeline.learner import DSeparationTester, learn_graph
 
 

@@ -13,8 +13,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
+from pipeline.design import Design, Regime
 from pipeline.independence.base import TestResults
-from pipeline.intake.design import Design, Regime
 from pipeline.learner import DSeparationTester, learn_graph
 from pipeline.learner.orient import find_colliders
 from pipeline.learner.skeleton import learn_skeleton

@@ -8,11 +8,12 @@ import networkx as nx
 import pandas as pd
 import pytest
 
-from pipeline.evidence.result import RESULT_FILES, LearnResult
-from pipeline.evidence.schema import ResultRecord
-from pipeline.intake.design import Design, Regime
+from pipeline.design import Design, Regime
 from pipeline.learner.oracle import DSeparationTester
 from pipeline.learner.pc import learn_graph
+from pipeline.results.files import RESULT_FILES
+from pipeline.results.learn import LearnResult
+from pipeline.results.schema import ResultRecord
 
 # A DAG with one collider: F -> A -> C <- B, C -> D. Without experiments its CPDAG keeps
 # F - A undirected and directs A -> C <- B (the v-structure) and C -> D (Meek's rule 1):
@@ -77,13 +78,14 @@ def test_removed_table(observational):
 
 def test_save_writes_files_and_keeps_history(tmp_path, observational, with_knockdown):
     out = tmp_path / "run"
-    observational.save(out)
-    assert sorted(p.name for p in out.iterdir()) == sorted(RESULT_FILES)
+    written = observational.save(out)
+    assert set(written) <= set(RESULT_FILES)  # check.json only with a check
+    assert sorted(p.name for p in out.iterdir()) == sorted(written)
     first = json.loads((out / "result.json").read_text())
     with_knockdown.save(out)
     history = list((out / "history").iterdir())
     assert len(history) == 1
-    assert sorted(p.name for p in history[0].iterdir()) == sorted(RESULT_FILES)
+    assert sorted(p.name for p in history[0].iterdir()) == sorted(written)
     # the old result moved whole, the new one replaced it
     assert json.loads((history[0] / "result.json").read_text()) == first
     assert ResultRecord.read(out / "result.json").class_size == 1
@@ -133,5 +135,5 @@ def test_to_networkx_and_summary(observational):
     assert d.has_edge("A", "F") and d.has_edge("F", "A")  # undirected: both arcs
     assert d.edges["A", "C"]["orientation"] == "directed" and not d.has_edge("C", "A")
     text = observational.summary()
-    assert "edges: 5 (4 directed, 1 undirected)" in text
+    assert "5 edges (4 directed, 1 undirected)" in text
     assert "DAGs in the class: 2" in text

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from pipeline.evidence.scoring import score, shd
+from pipeline.analyses.scoring import score, shd
 from pipeline.graphs.pdag import PDAG
 
 

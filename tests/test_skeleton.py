@@ -13,9 +13,9 @@ import networkx as nx
 import numpy as np
 import pytest
 
+from pipeline.design import Design, Regime
 from pipeline.graphs.augmented import augmented_graph
 from pipeline.independence.base import TestResults
-from pipeline.intake.design import Design, Regime
 from pipeline.learner import DSeparationTester
 from pipeline.learner.skeleton import learn_skeleton
 

@@ -8,10 +8,10 @@ import sqlite3
 import numpy as np
 import pytest
 
+from pipeline.design import Design, Regime
 from pipeline.independence.base import TestResults
 from pipeline.independence.cached import CachedTester
 from pipeline.independence.store import TestStore
-from pipeline.intake.design import Design, Regime
 from pipeline.stats.moments import Moments
 
 

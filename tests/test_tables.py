@@ -6,8 +6,8 @@ import csv
 import io
 import math
 
-from pipeline.evidence.tables import REMOVED_COLUMNS, removed_csv
 from pipeline.learner.evidence import RemovedPair
+from pipeline.results.tables import REMOVED_COLUMNS, removed_csv
 
 
 class _Removed:

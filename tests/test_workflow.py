@@ -10,11 +10,11 @@ import pytest
 
 import pipeline.independence.gaussian as gaussian
 import pipeline.intake.read as intake_read
+from pipeline.analyses.scoring import score
+from pipeline.design import Design, Regime
 from pipeline.errors import InputError
-from pipeline.evidence.scoring import score
 from pipeline.graphs.essential import essential_graph
 from pipeline.independence.store import TestStore
-from pipeline.intake.design import Design, Regime
 from pipeline.simulation import simulate
 from pipeline.stats.moments import Moments
 from pipeline.workflow import learn, learn_from_moments

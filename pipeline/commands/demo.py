@@ -5,8 +5,6 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from rich.console import Console
-
 import pipeline
 from pipeline.errors import InputError
 
@@ -33,10 +31,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from pipeline.commands.check import print_result as print_check
-    from pipeline.commands.compare import print_scores
-    from pipeline.commands.learn import print_files, print_result
-    from pipeline.evidence.check import check
+    from rich.console import Console
+
+    from pipeline.analyses.check import check
+    from pipeline.commands.learn import print_files
     from pipeline.progress import Progress
     from pipeline.workflow import learn
 
@@ -45,19 +43,19 @@ def run(args: argparse.Namespace) -> int:
     data, regimes = folder / "measurements.csv", folder / "regimes.csv"
     console = Console()
     console.rule("[bold]1. check the inputs[/bold]")
-    print_check(check([data], regimes), console)
+    check([data], regimes).print(console)
     console.rule("[bold]2. learn the graph[/bold]")
     with Progress() as bars:
         result = learn([data], regimes, out=out, progress=bars)
-    print_result(result, console)
+    result.print(console)
     truth = folder / "truth_dag.csv"
     if truth.is_file():
-        from pipeline.evidence.scoring import score_result
+        from pipeline.analyses.scoring import score_result
         from pipeline.intake.dag import read_dag_csv
 
         console.rule("[bold]3. against the true circuit (known for invented data)[/bold]")
         scores, _ = score_result(result.record(), read_dag_csv(truth, extra_nodes=result.record(
             ).nodes))
-        print_scores(scores, console)
+        scores.print(console)
     print_files(out, console)
     return 0

@@ -5,14 +5,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from rich.console import Console
-
 from pipeline.errors import InputError, nearest_names
-from pipeline.evidence.identify import identify
-from pipeline.fileio import write_text
-from pipeline.intake.dag import read_dag_csv
-from pipeline.intake.design import Design
-from pipeline.intake.regimes import read_regimes
 
 HELP = "show the essential graph and class size that the regimes' targets identify in a known DAG"
 
@@ -32,6 +25,15 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--dag: missing; name the known graph file (columns source,target)")
     if not args.regimes:
         raise InputError("--regimes: missing; name the regimes file (columns regime,targets)")
+    from rich.console import Console
+    from rich.markup import escape
+
+    from pipeline.analyses.identify import identify
+    from pipeline.design import Design
+    from pipeline.fileio import write_text
+    from pipeline.intake.dag import read_dag_csv
+    from pipeline.intake.regimes import read_regimes
+
     regimes = read_regimes(args.regimes, variables=None, reference=args.reference)
     extra = [t for r in regimes for t in r.targets]
     dag = read_dag_csv(args.dag, extra_nodes=extra)
@@ -47,7 +49,7 @@ def run(args: argparse.Namespace) -> int:
     console = Console()
     result.print(console)
     if path is not None:
-        console.print(f"wrote {path}")
+        console.print(f"wrote {escape(str(path))}", highlight=False)
     return 0
 
 

@@ -4,11 +4,8 @@ from __future__ import annotations
 
 import argparse
 
-from rich.console import Console
-from rich.table import Table
-
 from pipeline.errors import InputError
-from pipeline.simulation import KINDS, simulate
+from pipeline.options import SIMULATION_KINDS
 
 HELP = "write synthetic control and perturbation data from a random linear Gaussian model"
 
@@ -19,13 +16,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--nodes", type=int, default=10, help="number of variables (default 10)")
     parser.add_argument("--degree", type=float, default=2.0,
                         help="expected number of neighbours per variable (default 2)")
-    parser.add_argument("--regimes", type=int, default=5,
+    parser.add_argument("--perturbations", type=int, default=5, metavar="N",
                         help="number of interventional regimes (default 5)")
+    # the contract's first name for it, kept working (every other --regimes is a file)
+    parser.add_argument("--regimes", type=int, dest="perturbations", help=argparse.SUPPRESS)
     parser.add_argument("--targets-per-regime", type=int, default=1,
                         help="variables acted on per regime (default 1)")
     parser.add_argument("--samples", type=int, default=1000,
                         help="rows per regime, controls included (default 1000)")
-    parser.add_argument("--kind", choices=KINDS, default="knockdown",
+    parser.add_argument("--kind", choices=SIMULATION_KINDS, default="knockdown",
                         help="kind of intervention (default knockdown)")
     parser.add_argument("--strength", type=float, default=1.0,
                         help="intervention strength, in observational standard deviations "
@@ -41,7 +40,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     if not args.out:
         raise InputError("--out: missing; name the folder to write the simulated files into")
-    sim = simulate(nodes=args.nodes, degree=args.degree, regimes=args.regimes,
+    from rich.console import Console
+    from rich.markup import escape
+    from rich.table import Table
+
+    from pipeline.simulation import simulate
+
+    sim = simulate(nodes=args.nodes, degree=args.degree, regimes=args.perturbations,
                    targets_per_regime=args.targets_per_regime, samples=args.samples,
                    kind=args.kind, strength=args.strength, off_target=args.off_target,
                    seed=args.seed, controls=args.controls)
@@ -59,5 +64,5 @@ def run(args: argparse.Namespace) -> int:
                       style=style)
     console.print(table)
     for path in paths.values():
-        console.print(f"wrote {path}")
+        console.print(f"wrote {escape(str(path))}", highlight=False)
     return 0

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.errors import InputError
 from pipeline.independence.base import TestResults
 from pipeline.independence.fisher_z import _check_tests, _Strata
@@ -29,7 +30,6 @@ from pipeline.independence.invariance import (
     _Pair,
     response_matrix,
 )
-from pipeline.intake.design import Design
 from pipeline.stats.moments import Moments
 
 __all__ = ["GaussianTester"]

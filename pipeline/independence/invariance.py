@@ -46,6 +46,7 @@ import numpy as np
 import pandas as pd
 from scipy.special import chdtrc
 
+from pipeline.design import Design
 from pipeline.errors import InputError
 from pipeline.independence.base import TestResults
 from pipeline.independence.fisher_z import (
@@ -55,10 +56,10 @@ from pipeline.independence.fisher_z import (
     _correlation_flat,
     _eliminate,
 )
-from pipeline.intake.design import Design
+from pipeline.independence.multiplicity import benjamini_hochberg
 from pipeline.stats.moments import Moments, merge_moments
 
-__all__ = ["invariance_lr", "response_matrix", "ResponseMatrix"]
+__all__ = ["invariance_lr", "response_matrix", "ResponseMatrix", "standardized_difference"]
 
 #: A variable whose variance is below this fraction of its scale counts as constant
 #: (the same rule as ``Moments.constant``).
@@ -167,8 +168,12 @@ class ResponseMatrix:
         Standardized mean shift ``(mean_k - mean_ref) / sd_ref`` (sd of the pooled
         reference, ddof 1); +-inf when the reference is constant and the mean moved.
     statistic : array (R, p)
-        LR statistic of the marginal invariance test (mean and variance).
+        Statistic of the marginal invariance test (mean and variance).
     pvalue : array (R, p)
+    sd_ratio : array (R, p)
+        ``sd_k / sd_ref``: the effect on the spread (inf when the reference is constant).
+    adjusted : array (R, p)
+        Benjamini-Hochberg adjusted p-values over the whole matrix.
     """
 
     regimes: tuple[str, ...]
@@ -176,10 +181,23 @@ class ResponseMatrix:
     shift: np.ndarray
     pvalue: np.ndarray
     statistic: np.ndarray
+    sd_ratio: np.ndarray | None = None
+    adjusted: np.ndarray | None = None
+
+    def __post_init__(self) -> None:
+        shape = np.shape(self.pvalue)
+        if self.sd_ratio is None:
+            self.sd_ratio = np.full(shape, np.nan)
+        if self.adjusted is None:
+            self.adjusted = benjamini_hochberg(self.pvalue)
 
     def shifted(self, alpha: float) -> np.ndarray:
-        """(R, p) mask of the variables whose marginal law moved (p <= alpha)."""
+        """(R, p) mask of the variables whose marginal law moved (raw p <= alpha)."""
         return self.pvalue <= alpha
+
+    def marked(self, alpha: float) -> np.ndarray:
+        """(R, p) mask of the responses reported as moved (adjusted p <= alpha)."""
+        return self.adjusted <= alpha
 
     def to_frame(self) -> pd.DataFrame:
         """Long format: one row per (regime, variable)."""
@@ -188,8 +206,10 @@ class ResponseMatrix:
             "regime": np.repeat(np.asarray(self.regimes, dtype=object), p),
             "variable": np.tile(np.asarray(self.variables, dtype=object), r),
             "shift": self.shift.ravel(),
+            "sd_ratio": self.sd_ratio.ravel(),
             "statistic": self.statistic.ravel(),
             "pvalue": self.pvalue.ravel(),
+            "adjusted": self.adjusted.ravel(),
         })
 
     def summary(self, top: int = 20) -> str:
@@ -233,20 +253,29 @@ def response_matrix(moments: Moments, design: Design) -> ResponseMatrix:
     sd_ref = np.sqrt(np.diagonal(scatter_ref) / max(n_ref - 1, 1))
     names = tuple(r.name for r in design.interventional)
     shift = np.zeros((len(names), p))
+    ratio = np.ones((len(names), p))
     stat = np.zeros((len(names), p))
     pval = np.ones((len(names), p))
     every = np.arange(p)
+    sds = np.sqrt(moments.variances())
     for i, name in enumerate(names):
         k = moments.index(name)
-        diff = moments.mean[k] - mean_ref
-        with np.errstate(divide="ignore", invalid="ignore"):
-            shift[i] = np.where(sd_ref > 0, diff / np.where(sd_ref > 0, sd_ref, 1.0),
-                                np.sign(diff) * np.inf)
-        shift[i][(sd_ref == 0) & (diff == 0)] = 0.0
+        shift[i] = standardized_difference(moments.mean[k] - mean_ref, sd_ref)
+        ratio[i] = standardized_difference(sds[k], sd_ref, zero=1.0)
         res = _Pair(n_ref, mean_ref, scatter_ref, int(moments.count[k]), moments.mean[k],
                     moments.scatter[k]).test(every, np.zeros((p, 0), dtype=np.intp))
         stat[i], pval[i] = res.statistic, res.pvalue
-    return ResponseMatrix(names, tuple(moments.variables), shift, pval, stat)
+    return ResponseMatrix(names, tuple(moments.variables), shift, pval, stat,
+                          sd_ratio=ratio)
+
+
+def standardized_difference(diff: np.ndarray, sd: np.ndarray, zero: float = 0.0) -> np.ndarray:
+    """``diff / sd`` elementwise; where ``sd == 0``: +-inf, or `zero` when ``diff`` is 0 too."""
+    diff = np.asarray(diff, dtype=float)
+    sd = np.asarray(sd, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.where(sd > 0, diff / np.where(sd > 0, sd, 1.0), np.sign(diff) * np.inf)
+    return np.where((sd == 0) & (diff == 0), zero, out)
 
 
 def _check_design(moments: Moments, design: Design) -> None:

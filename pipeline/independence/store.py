@@ -31,7 +31,7 @@ from typing import Any
 
 import numpy as np
 
-from pipeline.intake.design import Design, Regime
+from pipeline.design import Design, Regime
 from pipeline.stats.moments import Moments
 
 __all__ = ["TestStore", "StoredInputs"]

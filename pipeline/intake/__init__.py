@@ -1,7 +1,5 @@
-"""Intake: reading measurement tables and the regimes file, and checking them."""
+"""Intake: reading measurement tables and the regimes file, and checking them.
 
-from pipeline.intake.design import Design, Regime
-from pipeline.intake.read import Intake, read_inputs
-from pipeline.intake.regimes import read_regimes
-
-__all__ = ["Design", "Regime", "Intake", "read_inputs", "read_regimes"]
+The entry point is `pipeline.intake.read.read_inputs`; `regimes.py` reads the regimes
+file, `tables.py` the measurement tables, `dag.py` a known graph.
+"""

@@ -28,9 +28,9 @@ from pathlib import Path
 
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.errors import InputError, nearest_names
 from pipeline.intake.checks import check_statistics
-from pipeline.intake.design import Design
 from pipeline.intake.regimes import read_regimes
 from pipeline.intake.tables import (
     TableHeader,
@@ -40,6 +40,7 @@ from pipeline.intake.tables import (
     read_header,
     resolve_variables,
 )
+from pipeline.options import TESTS
 from pipeline.stats.accumulate import MomentAccumulator
 from pipeline.stats.fingerprint import _fingerprint, statistics_options
 from pipeline.stats.moments import Moments
@@ -47,8 +48,6 @@ from pipeline.stats.ranks import normal_scores
 
 __all__ = ["Intake", "read_inputs", "TESTS"]
 
-#: Values of the ``test`` option.
-TESTS = ("gaussian", "rank")
 
 
 @dataclass

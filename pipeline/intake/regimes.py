@@ -23,8 +23,8 @@ import csv
 from collections.abc import Sequence
 from pathlib import Path
 
+from pipeline.design import Regime
 from pipeline.errors import InputError, nearest_names
-from pipeline.intake.design import Regime
 
 __all__ = ["read_regimes", "parse_known"]
 

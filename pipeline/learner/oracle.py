@@ -16,7 +16,7 @@ essential graph (completeness of PC with Meek's rules [1]_, [4]_). d-separation 
 networkx's (``nx.is_d_separator``), an implementation outside this project.
 
 >>> import networkx as nx
->>> from pipeline.intake.design import Design, Regime
+>>> from pipeline.design import Design, Regime
 >>> d = Design(("A", "B"), (Regime("ctrl", reference=True), Regime("kd", ("A",))))
 >>> t = DSeparationTester(nx.DiGraph([("A", "B")]), d)
 >>> float(t.invariance("kd", np.array([1]), np.zeros((1, 1), dtype=int)).pvalue[0])
@@ -39,10 +39,10 @@ from __future__ import annotations
 import networkx as nx
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.graphs.augmented import augmented_graph
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.independence.base import TestResults
-from pipeline.intake.design import Design
 
 __all__ = ["DSeparationTester"]
 

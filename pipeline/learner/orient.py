@@ -51,16 +51,16 @@ from itertools import combinations
 
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.graphs.pdag import PDAG, InterventionNode
 from pipeline.independence.base import Tester
-from pipeline.intake.design import Design
 from pipeline.learner.evidence import Conflict
 from pipeline.learner.skeleton import Progress, Skeleton, run_batched, subsets_up_to
 from pipeline.learner.targets import TargetSearch
+from pipeline.options import COLLIDER_RULES
 
 __all__ = ["COLLIDER_RULES", "ColliderSearch", "augmented_skeleton", "find_colliders"]
 
-COLLIDER_RULES = ("majority", "conservative", "standard")
 
 Node = Hashable
 

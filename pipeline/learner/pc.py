@@ -16,7 +16,7 @@ all intervention nodes), then intervention-node adjacencies from subsets of the 
 adjacencies, then colliders, then Meek's rules. Every decision keeps its evidence.
 
 >>> import networkx as nx
->>> from pipeline.intake.design import Design, Regime
+>>> from pipeline.design import Design, Regime
 >>> from pipeline.learner.oracle import DSeparationTester
 >>> d = Design(("A", "B"), (Regime("ctrl", reference=True), Regime("kd_A", ("A",))))
 >>> learned = learn_graph(d, DSeparationTester(nx.DiGraph([("A", "B")]), d))
@@ -41,19 +41,19 @@ from __future__ import annotations
 
 import numbers
 
+from pipeline.design import Design
 from pipeline.graphs.essential import orient_pattern
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
 from pipeline.independence.base import Tester
-from pipeline.intake.design import Design
 from pipeline.learner.evidence import KeptPair, Learned, RemovedPair
 from pipeline.learner.orient import COLLIDER_RULES, augmented_skeleton, find_colliders
 from pipeline.learner.skeleton import Progress, learn_skeleton
 from pipeline.learner.targets import learn_targets
+from pipeline.options import TARGET_MODES
 
 __all__ = ["learn_graph", "TARGET_MODES"]
 
-TARGET_MODES = ("declared", "learn")
 
 
 def learn_graph(
@@ -158,7 +158,7 @@ def _validate(design, tester, alpha, max_condition_size, targets, collider_rule,
               progress) -> None:
     """Check the arguments of `learn_graph`; raise ValueError naming the culprit."""
     if not isinstance(design, Design):
-        raise ValueError(f"design should be a pipeline.intake.design.Design; "
+        raise ValueError(f"design should be a pipeline.design.Design; "
                          f"got {type(design).__name__}")
     for method in ("ci", "invariance"):
         if not callable(getattr(tester, method, None)):

@@ -20,7 +20,7 @@ recorded is the one with the largest p (ties: the first in lexicographic order o
 variable positions), the strongest evidence of the separation.
 
 >>> import networkx as nx
->>> from pipeline.intake.design import Design, Regime
+>>> from pipeline.design import Design, Regime
 >>> from pipeline.learner.oracle import DSeparationTester
 >>> d = Design(("A", "B", "C"), (Regime("ctrl", reference=True),))
 >>> t = DSeparationTester(nx.DiGraph([("A", "B"), ("B", "C")]), d)

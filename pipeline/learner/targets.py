@@ -42,9 +42,9 @@ from itertools import combinations
 
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.independence.base import Tester
-from pipeline.intake.design import Design
 from pipeline.learner.evidence import TargetFinding
 from pipeline.learner.skeleton import (
     Progress,

@@ -61,6 +61,9 @@ class ResultRecord:
     valid: bool = True
     problems: list[str] = field(default_factory=list)
     format: str = FORMAT
+    findings: list[dict[str, Any]] = field(default_factory=list)
+    tests_per_level: dict[str, int] = field(default_factory=dict)
+    provenance: dict[str, Any] = field(default_factory=dict)
 
     @property
     def log10_class_size(self) -> float:
@@ -79,6 +82,9 @@ class ResultRecord:
             "warnings": list(self.warnings),
             "valid": self.valid,
             "problems": list(self.problems),
+            "findings": [dict(f) for f in self.findings],
+            "tests_per_level": {str(k): int(v) for k, v in self.tests_per_level.items()},
+            "provenance": dict(self.provenance),
         }
 
     def to_json(self) -> str:
@@ -106,7 +112,11 @@ class ResultRecord:
             rec = cls(nodes=nodes, regimes=regimes, edges=edges,
                       class_size=int(d.get("class_size", 0)), settings=d.get("settings", {}),
                       warnings=list(d.get("warnings", [])), valid=bool(d.get("valid", True)),
-                      problems=list(d.get("problems", [])))
+                      problems=list(d.get("problems", [])),
+                      findings=[dict(f) for f in d.get("findings", [])],
+                      tests_per_level={str(k): int(v)
+                                       for k, v in d.get("tests_per_level", {}).items()},
+                      provenance=dict(d.get("provenance", {})))
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(f"{where}: malformed result ({exc})") from None
         known = set(nodes)

@@ -1,7 +1,7 @@
 """A drawing of the learned graph as inline SVG, laid out in layers.
 
 A layered drawing puts every variable on a horizontal layer so that directed edges point
-downwards, which reads best for a causal graph. The layout (`pipeline.report.layout`)
+downwards, which reads best for a causal graph. The layout (`pipeline.results.layout`)
 follows the four steps of Sugiyama, Tagawa & Toda [1]_: make the graph acyclic, assign
 layers by longest path, order each layer to reduce crossings, and place the nodes by the
 least-squares fit that keeps the order (isotonic regression [2]_). Everything is
@@ -14,7 +14,7 @@ without heads. Directed edges are coloured by the rule that set their direction
 conflicting edges are dashed, and every edge carries an SVG ``<title>`` (a tooltip) with
 its evidence. The output has no script and no external resource.
 
->>> from pipeline.evidence.schema import EdgeRecord
+>>> from pipeline.results.schema import EdgeRecord
 >>> svg = graph_svg(["A", "B"], [EdgeRecord("A", "B", "directed", "intervention")])
 >>> svg.startswith("<svg") and svg.count('class="og-edge') == 1
 True
@@ -38,8 +38,8 @@ import itertools
 import math
 from collections.abc import Sequence
 
-from pipeline.evidence.schema import EdgeRecord
-from pipeline.report.layout import Layout, Style, components, layered_layout, short_label
+from pipeline.results.layout import Layout, Style, components, layered_layout, short_label
+from pipeline.results.schema import EdgeRecord
 
 __all__ = ["graph_svg", "graph_section", "MAX_DRAWN", "MAX_WITH_ISOLATED", "COLOURS"]
 

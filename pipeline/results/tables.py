@@ -17,10 +17,10 @@ from collections.abc import Iterable
 
 import pandas as pd
 
-from pipeline.evidence.schema import EdgeRecord
+from pipeline.design import Design
 from pipeline.graphs.pdag import InterventionNode
-from pipeline.intake.design import Design
 from pipeline.learner.evidence import Learned
+from pipeline.results.schema import EdgeRecord
 
 __all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "removed_frame",
            "edges_csv", "removed_csv", "to_csv"]

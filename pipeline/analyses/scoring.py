@@ -21,64 +21,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
-from typing import Any
-
 import networkx as nx
 
 from pipeline.graphs.pdag import PDAG
+from pipeline.results.scores import Scores
 
 __all__ = ["Scores", "shd", "score", "result_targets", "score_result"]
-
-
-@dataclass(frozen=True)
-class Scores:
-    """How close a learned graph is to the truth.
-
-    Attributes
-    ----------
-    shd : int
-        Structural Hamming distance (see `shd`).
-    adjacency_precision, adjacency_recall : float or None
-        Among the learned adjacencies, the fraction that are true; among the true
-        adjacencies, the fraction learned. None when the denominator is 0.
-    orientation_precision, orientation_recall : float or None
-        Among the directed edges of the learned graph, the fraction directed the same way
-        in the truth; among the directed edges of the truth, the fraction the learned
-        graph directs the same way. None when the denominator is 0.
-    learned_edges, true_edges, shared_adjacencies : int
-    learned_directed, true_directed, shared_directed : int
-        The counts behind the fractions.
-    """
-
-    shd: int
-    adjacency_precision: float | None
-    adjacency_recall: float | None
-    orientation_precision: float | None
-    orientation_recall: float | None
-    learned_edges: int
-    true_edges: int
-    shared_adjacencies: int
-    learned_directed: int
-    true_directed: int
-    shared_directed: int
-
-    def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
-
-    def summary(self) -> str:
-        """A short text table of the scores."""
-        def f(v: float | None) -> str:
-            return "n/a" if v is None else f"{v:.3f}"
-        rows = [("structural Hamming distance", str(self.shd)),
-                ("adjacency precision", f(self.adjacency_precision)),
-                ("adjacency recall", f(self.adjacency_recall)),
-                ("orientation precision", f(self.orientation_precision)),
-                ("orientation recall", f(self.orientation_recall)),
-                ("edges learned / true", f"{self.learned_edges} / {self.true_edges}"),
-                ("directed learned / true", f"{self.learned_directed} / {self.true_directed}")]
-        w = max(len(a) for a, _ in rows)
-        return "\n".join(f"{a:<{w}}  {b}" for a, b in rows)
 
 
 def _check_same_nodes(a: PDAG, b: PDAG) -> None:

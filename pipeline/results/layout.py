@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import networkx as nx
 import numpy as np
 
-from pipeline.evidence.schema import EdgeRecord
+from pipeline.results.schema import EdgeRecord
 
 __all__ = ["Style", "Layout", "short_label", "components", "layered_layout"]
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from xml.sax.saxutils import escape, quoteattr
 
-from pipeline.evidence.schema import EdgeRecord
+from pipeline.results.schema import EdgeRecord
 
 __all__ = ["graphml_text"]
 

@@ -1,17 +1,24 @@
 """The report of a ``learn`` run: one self-contained HTML page.
 
-The page has no external resource (styles inline, no scripts, no fonts or images
-fetched) so it can be mailed or archived as one file. Every string that comes from the
-user's inputs (variable and regime names, warnings) is escaped.
+The page is a view of the run's folder: it is rendered from what ``result.json`` and
+``check.json`` hold, plus the sections that later commands add (``sweep``, ``plan``,
+``validate``), so any of them can render it again (`pipeline.results.files.refresh_report`).
+It has no external resource (styles inline, no scripts, no fonts or images fetched) so it
+can be mailed or archived as one file. Every string that comes from the user's inputs
+(variable and regime names, warnings) is escaped.
 """
 
 from __future__ import annotations
 
 import html
 import math
+from collections.abc import Sequence
 from typing import Any
 
-from pipeline.report.drawing import graph_section
+from pipeline.results.check import CheckResult
+from pipeline.results.drawing import graph_section
+from pipeline.results.formatting import format_count
+from pipeline.results.schema import ResultRecord
 
 __all__ = ["render_report", "CAUTIONS"]
 
@@ -59,48 +66,62 @@ def _table(header: list[str], rows: list[list[str]], numeric: set[int] = frozens
     return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
 
 
-def _response(check: Any) -> str:
+def _response(check: CheckResult) -> str:
     """The response matrix as a table shaded by the standardized shift."""
     resp = check.response
+    marked = resp.marked(check.alpha)
     rows = []
     for i, regime in enumerate(resp.regimes):
         cells = [_e(regime)]
         for j in range(len(resp.variables)):
-            s, p = float(resp.shift[i][j]), float(resp.pvalue[i][j])
+            s = float(resp.shift[i][j])
             if not math.isfinite(s):
                 cells.append("&ndash;")
                 continue
-            a = min(abs(s) / 2.0, 1.0) * (0.85 if p <= check.alpha else 0.25)
+            a = min(abs(s) / 2.0, 1.0) * (0.85 if marked[i][j] else 0.25)
             colour = f"rgba(192,48,48,{a:.2f})" if s < 0 else f"rgba(48,96,192,{a:.2f})"
-            mark = "*" if p <= check.alpha else ""
+            mark = "*" if marked[i][j] else ""
             cells.append(f"<span style=\"background:{colour};padding:0 .3em\">{s:+.2f}{mark}"
                          f"</span>")
         rows.append(cells)
     return _table(["regime"] + list(resp.variables), rows)
 
 
-def render_report(result: Any) -> str:
-    """The HTML page of a `LearnResult` (a string; the caller writes it)."""
-    design, learned, s = result.design, result.learned, result.settings
-    g = result.graph
-    n_dir = sum(1 for _ in g.directed_edges())
-    n_und = sum(1 for _ in g.undirected_edges())
+def render_report(record: ResultRecord, check: CheckResult | None = None,
+                  sections: Sequence[tuple[str, str]] = ()) -> str:
+    """The HTML page of a learn result (a string; the caller writes it).
+
+    Parameters
+    ----------
+    record : ResultRecord
+        The content of ``result.json``.
+    check : CheckResult, optional
+        The input check (target check, response matrix).
+    sections : sequence of (title, html)
+        Further sections (sweep, plan, validation), already rendered; shown after the
+        regimes, in the order given.
+    """
+    s = record.settings
+    n_dir = sum(1 for e in record.edges if e.orientation == "directed")
+    n_und = len(record.edges) - n_dir
+    ref = [r.name for r in record.regimes if r.reference]
     parts = [f"<h1>Orienteer: learned causal graph</h1>"
-             f"<p>{len(design.variables)} variables, {len(design.regimes)} regimes "
-             f"(reference: {_e(', '.join(r.name for r in design.reference))}). "
+             f"<p>{len(record.nodes)} variables, {len(record.regimes)} regimes "
+             f"(reference: {_e(', '.join(ref))}). "
              f"<b>{n_dir + n_und}</b> edges: <b>{n_dir}</b> directed, <b>{n_und}</b> "
-             f"undirected. DAGs still possible (class size): <b>{result.class_size}</b>.</p>"]
-    if not result.valid:
+             f"undirected. DAGs still possible (class size): "
+             f"<b>{_e(format_count(record.class_size))}</b>.</p>"]
+    if not record.valid:
         parts.append("<p class=\"bad\">The learned graph is not a valid essential graph: "
-                     + _e("; ".join(learned.problems)) + "</p>")
+                     + _e("; ".join(record.problems)) + "</p>")
 
     # drawing
     parts.append("<h2>Graph</h2>")
-    parts.append(graph_section(design.variables, result.edge_records))
+    parts.append(graph_section(record.nodes, record.edges))
 
     # edges
     rows = []
-    for e in result.edge_records:
+    for e in record.edges:
         arrow = "&rarr;" if e.orientation == "directed" else "&mdash;"
         rows.append([f"{_e(e.source)} {arrow} {_e(e.target)}", _e(e.orientation), _e(e.rule),
                      _e(", ".join(e.via)) or "&ndash;", _p(e.p_adjacency), _p(e.p_orientation),
@@ -116,39 +137,43 @@ def render_report(result: Any) -> str:
     # regimes and targets
     rows = [[_e(r.name), str(r.samples), _e(";".join(r.targets)) or "&ndash;",
              "yes" if r.known else "no",
-             "reference" if r.reference else (_e(";".join(learned.targets.get(r.name, ())))
-                                              or "&ndash;")]
-            for r in design.regimes]
+             "reference" if r.reference else (_e(";".join(r.detected_targets)) or "&ndash;")]
+            for r in record.regimes]
     parts.append("<h2>Regimes</h2>")
     parts.append(_table(["regime", "samples", "declared targets", "known", "detected targets"],
                         rows, numeric={1}))
-    off = [f for f in learned.findings if f.status == "off-target"]
+    off = [f for f in record.findings if f.get("status") == "off-target"]
     if off:
         parts.append("<p>Off-target findings (no conditioning set made them invariant):</p>"
-                     "<ul>" + "".join(f"<li>{_e(f.regime)} acts on {_e(f.variable)} "
-                                      f"(p = {_p(f.pvalue)})</li>" for f in off) + "</ul>")
-    check = result.check
+                     "<ul>" + "".join(f"<li>{_e(f['regime'])} acts on {_e(f['variable'])} "
+                                      f"(p = {_p(f.get('pvalue'))})</li>" for f in off)
+                     + "</ul>")
     if check is not None:
         rows = [[_e(t.regime), _e(t.target), "yes" if t.known else "no (hint)",
                  f"{t.shift:+.2f}" if math.isfinite(t.shift) else "&ndash;", _p(t.pvalue),
-                 _e(t.verdict)] for t in check.targets]
+                 _p(t.conditional_pvalue), _e(t.verdict)] for t in check.targets]
         parts.append("<h2>Target check</h2>")
-        parts.append(_table(["regime", "target", "known", "shift", "p", "verdict"], rows,
-                            numeric={3, 4}) if rows else "<p>No declared targets.</p>")
+        parts.append(_table(["regime", "target", "known", "shift", "p", "p given neighbours",
+                             "verdict"], rows, numeric={3, 4, 5})
+                     if rows else "<p>No declared targets.</p>")
         parts.append("<h2>Response matrix</h2><p class=\"small\">Standardized mean shift of "
-                     "each variable in each regime against the reference; * marks p &le; "
-                     f"{check.alpha:g}. Blue: up, red: down.</p>")
+                     "each variable in each regime against the reference; * marks a "
+                     f"Benjamini-Hochberg adjusted p &le; {check.alpha:g}. Blue: up, red: "
+                     "down.</p>")
         parts.append(_response(check))
+    for title, fragment in sections:
+        parts.append(f"<h2>{_e(title)}</h2>")
+        parts.append(fragment)
 
     # warnings, settings, cautions
     parts.append("<h2>Warnings</h2>")
-    parts.append("".join(f"<div class=\"warn\">{_e(w)}</div>" for w in result.warnings)
+    parts.append("".join(f"<div class=\"warn\">{_e(w)}</div>" for w in record.warnings)
                  or "<p>None.</p>")
     parts.append("<h2>Settings</h2>")
     parts.append(_table(["option", "value"], [[_e(k), _e(v)] for k, v in s.items()]))
-    if learned.tests_per_level:
+    if record.tests_per_level:
         parts.append(_table(["conditioning-set size", "tests"],
-                            [[str(k), str(v)] for k, v in sorted(learned.tests_per_level.items())],
+                            [[_e(k), _e(v)] for k, v in record.tests_per_level.items()],
                             numeric={0, 1}))
     parts.append("<h2>Cautions</h2>")
     parts.append("".join(f"<div class=\"caution\">{_e(c)}</div>" for c in CAUTIONS))

@@ -1,1 +1,0 @@
-"""Results and their evidence: what the learner decided and why, and the files it writes."""
