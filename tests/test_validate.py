@@ -106,7 +106,10 @@ def _chain_inputs(folder, samples=800, seed=0, failed=False):
 
 def test_a_target_with_no_descendants_is_scored_without_error(tmp_path):
     data, regimes = _chain_inputs(tmp_path / "in")
-    result = validate([data], regimes, holdout="kd_C", seed=1)
+    calls = []
+    result = validate([data], regimes, holdout="kd_C", seed=1,
+                      progress=lambda *a: calls.append(a))
+    assert ("held-out regimes", 1, 1) in calls  # the progress display is told
     (held,) = result.regimes
     assert held.targets == ("C",) and held.variables == ("A", "B", "D")
     # C is a sink (networkx: no descendants) so nothing should move or be predicted
