@@ -98,7 +98,9 @@ def report_sections(folder: str | Path) -> list[tuple[str, str]]:
 
 
 #: File, section title, module and type that reads it (``.read(path).html_section()``).
-_SECTIONS: tuple[tuple[str, str, str, str], ...] = ()
+_SECTIONS: tuple[tuple[str, str, str, str], ...] = (
+    ("validation.json", "Held-out validation", "pipeline.results.validate", "ValidationResult"),
+)
 
 
 def refresh_report(folder: str | Path) -> Path:
