@@ -13,7 +13,7 @@ The tests:
 (a) ``fisher_z``: the stratified Fisher z test of X _||_ Y | S on `Moments.from_samples`
     statistics; |S| = 0 (X, Y independent) and |S| = 2 (S = two common parents of X and
     Y); K = 1 or 3 regimes, each regime with its own weights, intercepts and scales.
-(b) ``invariance``: the likelihood-ratio invariance test (`invariance_lr`) of X between
+(b) ``invariance``: the likelihood-ratio invariance test (`invariance_test`) of X between
     the reference and one regime; S empty (X has one law in both) and S = the parents of
     X (|S| = 1, 3, 10), whose law (mean and sd) shifts between the regimes while X | S
     does not.
@@ -63,11 +63,11 @@ from tests.generator import noise  # noqa: E402
 def project() -> SimpleNamespace:
     """The project functions this benchmark uses (module paths may move; see DEVELOPERS.md)."""
     from pipeline.independence.fisher_z import fisher_z
-    from pipeline.independence.invariance import invariance_lr
+    from pipeline.independence.invariance import invariance_test
     from pipeline.stats.moments import Moments
     from pipeline.stats.ranks import normal_scores
 
-    return SimpleNamespace(fisher_z=fisher_z, invariance_lr=invariance_lr, Moments=Moments,
+    return SimpleNamespace(fisher_z=fisher_z, invariance_test=invariance_test, Moments=Moments,
                            normal_scores=normal_scores)
 
 
@@ -156,7 +156,7 @@ def _inv_pvalues(api, blocks) -> np.ndarray:
     m = _moments(api, blocks)
     base = np.arange(r) * q
     cond = base[:, None] + 1 + np.arange(q - 1)[None, :]
-    return api.invariance_lr(m.count[0], m.mean[0], m.scatter[0], m.count[1], m.mean[1],
+    return api.invariance_test(m.count[0], m.mean[0], m.scatter[0], m.count[1], m.mean[1],
                              m.scatter[1], base, cond).pvalue
 
 
