@@ -31,7 +31,7 @@ from pipeline.intake.formats.base import (
 
 __all__ = ["read_header", "iter_chunks", "locate_row"]
 
-_INSTALL = "pip install openpyxl (or pip install 'orienteer[formats]')"
+_INSTALL = "pip install openpyxl"
 
 
 @contextmanager

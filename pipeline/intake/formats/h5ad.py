@@ -33,7 +33,7 @@ __all__ = ["read_header", "iter_chunks", "locate_row", "MAX_GENES_WITHOUT_LIST"]
 #: An .h5ad file with more genes than this needs --genes (the statistics grow as genes^2).
 MAX_GENES_WITHOUT_LIST = 2000
 
-_INSTALL = "pip install h5py (or pip install 'orienteer[formats]')"
+_INSTALL = "pip install h5py"
 _DENSE_BYTES = 64 << 20  # bytes of one dense row block read from X
 _SPARSE_ENTRIES = 8 << 20  # stored entries of one sparse row block
 

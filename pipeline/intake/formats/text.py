@@ -112,18 +112,18 @@ def iter_chunks(header: TableHeader, variables: Sequence[str], regime_column: st
     if regime_column is not None:
         na[regime_column] = [""]
         dtype[regime_column] = "category"
-    reader = pd.read_csv(
-        # every column is parsed (no usecols): the parser then rejects rows with extra cells
-        header.path, engine="c", sep=header.delimiter, chunksize=chunk_rows, header=0,
-        names=list(header.columns), dtype=dtype, keep_default_na=False, na_values=na,
-        skip_blank_lines=True, encoding="utf-8-sig", compression=header.compression,
-        decimal=options.decimal)
     start = 0
     try:
+        reader = pd.read_csv(
+            # every column is parsed (no usecols): the parser rejects rows with extra cells
+            header.path, engine="c", sep=header.delimiter, chunksize=chunk_rows, header=0,
+            names=list(header.columns), dtype=dtype, keep_default_na=False, na_values=na,
+            skip_blank_lines=True, encoding="utf-8-sig", compression=header.compression,
+            decimal=options.decimal)
         with reader:
             while True:
                 with warnings.catch_warnings():
-                    # a text cell makes the parser warn about mixed types: we report it ourselves
+                    # a text cell makes the parser warn about mixed types: reported below
                     warnings.simplefilter("ignore", pd.errors.DtypeWarning)
                     frame = next(reader, None)
                 if frame is None:
