@@ -6,7 +6,7 @@ annotations ``var`` (its index names the genes). The file is read in backed mode
 matrix is never loaded whole, only blocks of rows of the chosen genes (``--genes FILE``):
 
 - dense ``X``: row blocks ``X[a:b, :]`` of at most ~64 MiB, the chosen columns kept;
-- CSR ``X``: the row pointers, then for each block of rows (at most ~8 million stored
+- CSR ``X``: the row pointers, then for each block of rows (at most ~4 million stored
   entries) its entries, scattered into a dense block of the chosen genes;
 - CSC ``X``: the chosen genes' columns are gathered once (memory: their stored entries
   only) and served in row blocks.
@@ -35,7 +35,7 @@ MAX_GENES_WITHOUT_LIST = 2000
 
 _INSTALL = "pip install h5py"
 _DENSE_BYTES = 64 << 20  # bytes of one dense row block read from X
-_SPARSE_ENTRIES = 8 << 20  # stored entries of one sparse row block
+_SPARSE_ENTRIES = 4 << 20  # stored entries of one sparse row block
 
 
 @contextmanager
@@ -237,30 +237,24 @@ def _dense(x, cols, n_obs, n_var, chunk_rows):
         yield a, b, np.asarray(x[a:b])[:, cols].astype(np.float64)
 
 
-def _scatter(rows_of_entries, indices, data, pick, n_rows, p) -> np.ndarray:
-    """Dense (n_rows, p) block from sparse entries; `pick` maps a gene column to 0..p-1 or -1."""
-    out = np.zeros((n_rows, p))
-    target = pick[indices]
-    keep = target >= 0
-    np.add.at(out, (rows_of_entries[keep], target[keep]), data[keep])  # duplicates add up
-    return out
-
-
 def _csr(x, cols, n_obs, n_var, chunk_rows):
     indptr = np.asarray(x["indptr"][:], dtype=np.int64)
-    pick = np.full(n_var, -1, dtype=np.int64)
-    pick[cols] = np.arange(len(cols))
+    pick = np.full(n_var, -1, dtype=np.int32)  # gene column -> position among the chosen
+    pick[cols] = np.arange(len(cols), dtype=np.int32)
+    step = max(1, min(chunk_rows, _DENSE_BYTES // max(1, 8 * len(cols))))
     a = 0
     while a < n_obs:
-        # as many rows as fit in chunk_rows and in the entry budget (at least one row)
-        limit = min(n_obs, a + chunk_rows)
+        # as many rows as fit in the block and in the entry budget (at least one row)
         b = int(np.searchsorted(indptr, indptr[a] + _SPARSE_ENTRIES, side="right")) - 1
-        b = max(a + 1, min(limit, b))
+        b = max(a + 1, min(n_obs, a + step, b))
         lo, hi = int(indptr[a]), int(indptr[b])
-        indices = np.asarray(x["indices"][lo:hi], dtype=np.int64)
-        data = np.asarray(x["data"][lo:hi], dtype=np.float64)
-        rows = np.repeat(np.arange(b - a), np.diff(indptr[a:b + 1]))
-        yield a, b, _scatter(rows, indices, data, pick, b - a, len(cols))
+        target = pick[x["indices"][lo:hi]]  # indices as stored (int32 mostly)
+        kept = np.flatnonzero(target >= 0)
+        data = x["data"][lo:hi][kept].astype(np.float64)
+        rows = np.searchsorted(indptr[a + 1:b + 1] - lo, kept, side="right")
+        out = np.zeros((b - a, len(cols)))
+        np.add.at(out, (rows, target[kept]), data)  # duplicate entries add up
+        yield a, b, out
         a = b
 
 
