@@ -321,3 +321,15 @@ def test_fingerprint_includes_the_reading_options(folder):
         == fingerprint_inputs(paths, reg, genes=["G1", "G2"])
     shutil.copy(folder / "d.csv", folder / "d.txt")  # same bytes, another reading
     assert fingerprint_inputs([folder / "d.txt"], reg) != plain
+
+
+def test_a_file_named_for_another_format_says_which_it_looks_like(folder, monkeypatch, capsys):
+    frame = _table()
+    frame.to_csv(folder / "packed.csv", index=False, compression="gzip")
+    _exit_2(folder, monkeypatch, capsys, ["packed.csv"], ["packed.csv", "gzip", ".csv.gz"])
+    (folder / "packed.csv").unlink()
+    frame.to_excel(folder / "sheet.csv", index=False, engine="openpyxl")
+    _exit_2(folder, monkeypatch, capsys, ["sheet.csv"], ["sheet.csv", "name it .xlsx"])
+    (folder / "sheet.csv").unlink()
+    frame.to_csv(folder / "commas.tsv", index=False)
+    _exit_2(folder, monkeypatch, capsys, ["commas.tsv"], ["commas.tsv", "separated by commas"])

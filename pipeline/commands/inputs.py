@@ -16,7 +16,8 @@ def add_input_arguments(parser: argparse.ArgumentParser) -> None:
     and how to read the files: --decimal, --regime-from, --sheet, --genes."""
     parser.add_argument("data", nargs="*", metavar="DATA",
                         help="measurement files, read as one table: .csv, .tsv/.tab/.txt "
-                             "(tab-separated), either .gz-compressed, .parquet, .xlsx, .h5ad")
+                             "(tab-separated), also gzip-compressed (.csv.gz, .tsv.gz), "
+                             ".parquet, .xlsx, .h5ad")
     parser.add_argument("--regimes", metavar="REGIMES", help="regimes.csv: regime,targets[,known]")
     parser.add_argument("--regime-column", default="regime", metavar="NAME",
                         help="column of the measurements (obs column of .h5ad) that labels the "

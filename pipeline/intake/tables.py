@@ -180,8 +180,13 @@ def _check_regime_column(h: TableHeader, regime_column: str) -> None:
         return
     if regime_column not in h.columns:
         hint = ""
-        if len(h.columns) == 1 and any(s in h.columns[0] for s in (";", "\t", ",")):
-            hint = " (the header looks separated by another character than the file's)"
+        if len(h.columns) == 1:
+            seps = [name for sep, name in ((",", "commas"), (";", "semicolons"), ("\t", "tabs"))
+                    if sep in h.columns[0]]
+            if seps:
+                hint = (f" (the header looks separated by {seps[0]}, which this file's name "
+                        f"does not announce: name it .csv for commas or semicolons, .tsv "
+                        f"for tabs)")
         shown = ", ".join(h.columns[:50]) + (" ..." if len(h.columns) > 50 else "")
         raise InputError(f"data file {h.path}: no regime column '{regime_column}'"
                          f"{nearest_names(regime_column, h.columns)}; columns seen: "

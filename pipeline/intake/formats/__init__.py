@@ -30,8 +30,8 @@ SUFFIXES: dict[str, tuple[str, str | None]] = {
 }
 
 #: Plain names of the formats, for messages.
-KIND_NAMES = "CSV (.csv), tab-separated (.tsv, .tab, .txt), either gzip-compressed (.gz), " \
-             "Parquet (.parquet), Excel (.xlsx) or AnnData (.h5ad)"
+KIND_NAMES = "CSV (.csv), tab-separated (.tsv, .tab, .txt), these gzip-compressed " \
+             "(.csv.gz, .tsv.gz), Parquet (.parquet), Excel (.xlsx) or AnnData (.h5ad)"
 
 _MODULES = {"csv": "text", "tsv": "text", "txt": "text", "parquet": "parquet", "xlsx": "excel",
             "h5ad": "h5ad"}

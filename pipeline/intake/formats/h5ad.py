@@ -96,6 +96,8 @@ def _index(f, path: Path, name: str) -> list[str]:
         key = "index" if "index" in fields else fields[0]
         return list(_decode(node[key]).astype(str))
     index, _ = _frame_columns(node)
+    if index not in node and "index" in node:  # files that name it plainly
+        index = "index"
     if index not in node:
         raise InputError(f"data file {path}: '{name}' has no index column '{index}'")
     return list(_strings(node[index]))

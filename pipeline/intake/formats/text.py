@@ -43,6 +43,19 @@ def _open(path: Path, compression: str | None, errors: str = "strict") -> io.Tex
     return open(path, encoding="utf-8-sig", errors=errors, newline="")  # noqa: SIM115
 
 
+def _looks_like(path: Path) -> str:
+    """What to do: rename, when the first bytes show another format, else save as UTF-8."""
+    with open(path, "rb") as fh:
+        magic = fh.read(8)
+    for start, what in ((b"\x1f\x8b", "gzip-compressed: name it .csv.gz or .tsv.gz"),
+                        (b"PK\x03\x04", "like an Excel workbook (a zip archive): name it .xlsx"),
+                        (b"PAR1", "like a Parquet file: name it .parquet"),
+                        (b"\x89HDF", "like an HDF5 (AnnData) file: name it .h5ad")):
+        if magic.startswith(start):
+            return f"it looks {what}"
+    return "save it as UTF-8"
+
+
 def _sniff(line: str, kind: str) -> str:
     """The column separator of a header line."""
     if kind == "tsv":
@@ -63,7 +76,7 @@ def read_header(path: Path, kind: str, compression: str | None,
         with _open(path, compression) as fh:
             line = next((ln for ln in fh if ln.strip("\r\n")), None)
     except UnicodeDecodeError:
-        raise InputError(f"data file {path}: is not UTF-8 text; save it as UTF-8") from None
+        raise InputError(f"data file {path}: is not UTF-8 text; {_looks_like(path)}") from None
     except _GZIP_ERRORS as exc:
         raise InputError(f"data file {path}: is not a valid gzip file ({exc}); compress it "
                          f"again, or give the uncompressed file") from None
