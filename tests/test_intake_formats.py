@@ -19,8 +19,8 @@ import pytest
 from h5ad_files import write_h5ad
 
 from pipeline.errors import InputError
-from pipeline.intake import read_inputs
 from pipeline.intake.formats import h5ad as h5ad_reader
+from pipeline.intake.read import read_inputs
 from pipeline.intake.tables import DataFiles, ReadOptions, iter_chunks, read_header
 from pipeline.stats.fingerprint import fingerprint_inputs
 

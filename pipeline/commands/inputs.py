@@ -4,9 +4,12 @@ from __future__ import annotations
 
 import argparse
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from pipeline.errors import InputError
-from pipeline.intake.tables import DataFiles, ReadOptions, read_options
+
+if TYPE_CHECKING:  # the parser is built without the numerical stack
+    from pipeline.intake.tables import DataFiles, ReadOptions
 
 __all__ = ["add_input_arguments", "MeasurementInputs", "measurement_inputs"]
 
@@ -78,6 +81,8 @@ def measurement_inputs(args: argparse.Namespace) -> MeasurementInputs:
     ignore = args.ignore_columns
     if isinstance(ignore, str):  # "A,B" on the command line, a list in a config file
         ignore = ignore.split(",")
+    from pipeline.intake.tables import DataFiles, read_options
+
     reading = read_options(decimal=getattr(args, "decimal", "."),
                            regime_from=getattr(args, "regime_from", "column"),
                            sheet=getattr(args, "sheet", None),
