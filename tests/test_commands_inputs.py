@@ -67,3 +67,23 @@ def test_bad_reading_options_exit_2(tmp_path, files, capsys, monkeypatch, extra,
                      *extra])
     err = capsys.readouterr().err
     assert code == 2 and err.startswith("error:") and culprit in err, err
+
+
+def test_validate_reads_with_the_same_options(tmp_path, files, capsys):
+    # the options reach every command that reads measurements, validate included: the
+    # workbook's second sheet gives the results of the CSV file it was written from
+    frame = pd.read_csv(files / "data.csv")
+    book = tmp_path / "plates.xlsx"
+    with pd.ExcelWriter(book) as writer:
+        frame.iloc[:10].to_excel(writer, sheet_name="notes", index=False)
+        frame.to_excel(writer, sheet_name="cells", index=False)
+    reg = str(files / "regimes.csv")
+    assert cli.main(["validate", str(book), "--regimes", reg, "--sheet", "cells",
+                     "--out", str(tmp_path / "a"), "--holdout-all"]) == 0
+    assert cli.main(["validate", str(files / "data.csv"), "--regimes", reg,
+                     "--out", str(tmp_path / "b"), "--holdout-all"]) == 0
+    capsys.readouterr()
+    a = json.loads((tmp_path / "a" / "validation.json").read_text())
+    b = json.loads((tmp_path / "b" / "validation.json").read_text())
+    a.pop("settings", None), b.pop("settings", None)
+    assert a == b
