@@ -265,20 +265,18 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
             intake = Intake(design, moments, fingerprint, 0, list(design.warnings))
         checked = check_intake(intake, alpha=alpha)
 
-    # 3b. a declared target that did not move carries no orienting information for it
-    #     (METHODS.md 4): its intervention node is not joined to it
-    learner_design, dropped = design, []
-    if checked is not None and targets == "declared":
-        learner_design, dropped = _without_failed_targets(design, checked.failed_targets())
+    # 3b. control batches that differ are not pooled: the check settled the reference
+    learner_design = checked.design if checked is not None else design
 
     # 4. the learner, asking its tests through the store
     if store is not None:
         from pipeline.independence.cached import CachedTester
 
-        tester: Any = CachedTester(GaussianTester(moments, design), store, fingerprint,
+        tester: Any = CachedTester(GaussianTester(moments, learner_design), store,
+                                   _store_key(fingerprint, checked.demoted if checked else []),
                                    n_regimes=len(design.regimes))
     else:
-        tester = GaussianTester(moments, design)
+        tester = GaussianTester(moments, learner_design)
     if callable(progress):
         bars = nullcontext(progress)
     else:
@@ -294,9 +292,12 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
         tester.flush()
 
     warnings: list[str] = []
+    if checked is not None:
+        from pipeline.analyses.check import with_learner_verdicts
+
+        checked = with_learner_verdicts(checked, learned.target_verdicts)
     for w in [*(intake.warnings if intake is not None else design.warnings),
-              *(checked.warnings if checked is not None else ()), *dropped,
-              *learned.warnings]:
+              *(checked.warnings if checked is not None else ()), *learned.warnings]:
         if w not in warnings:
             warnings.append(w)
     run: dict[str, Any] = {}
@@ -306,26 +307,12 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
     else:
         n = getattr(tester, "n_tests", {})
         run.update(computed=sum(n.values()) if n else None, reused=0)
-    return LearnResult(learned=learned, design=design, settings=settings, warnings=warnings,
-                       check=checked, run=run)
+    return LearnResult(learned=learned, design=learner_design, settings=settings,
+                       warnings=warnings, check=checked, run=run)
 
 
-def _without_failed_targets(design: Design,
-                            failed: dict[str, list[str]]) -> tuple[Design, list[str]]:
-    """`design` without the declared targets that did not move, and a note for each."""
-    from dataclasses import replace
-
-    notes: list[str] = []
-    regimes = []
-    for r in design.regimes:
-        gone = [t for t in failed.get(r.name, ()) if t in r.targets]
-        if r.known and not r.reference and gone:
-            r = replace(r, targets=tuple(t for t in r.targets if t not in gone))
-            for t in gone:
-                notes.append(f"regime {r.name}: declared target {t} did not move, so the "
-                             f"learner does not join {r.name}'s intervention node to {t}; "
-                             f"check the perturbation (a failed guide or dose?)")
-        regimes.append(r)
-    if not notes:
-        return design, []
-    return replace(design, regimes=tuple(regimes)), notes
+def _store_key(fingerprint: str, demoted: list[str]) -> str:
+    """The store key of the learner's tests: the input fingerprint, plus the control
+    batches analysed apart when the check found them differing (invariance tests then
+    compare with another reference)."""
+    return fingerprint if not demoted else f"{fingerprint}|apart={','.join(sorted(demoted))}"

@@ -33,31 +33,40 @@ from __future__ import annotations
 
 import re
 from collections.abc import Sequence
+from dataclasses import replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
 
+from pipeline.design import Design
 from pipeline.errors import InputError
+from pipeline.independence.combine import stratified_pvalues
 from pipeline.independence.invariance import (
+    ResponseMatrix,
     regime_pair,
     response_matrix,
     standardized_difference,
 )
+from pipeline.independence.multiplicity import benjamini_hochberg
 from pipeline.options import check_alpha
 from pipeline.results.check import (
     MOVED,
+    MOVED_GIVEN,
     NOT_MOVED,
     CheckResult,
     ControlAgreement,
+    DistributionShape,
     TargetCheck,
 )
 from pipeline.results.formatting import format_p, format_shift
+from pipeline.stats.moments import Moments
 
 if TYPE_CHECKING:  # pragma: no cover
     from pipeline.intake.read import Intake
 
-__all__ = ["MIN_SAMPLES", "check", "check_intake", "control_agreement"]
+__all__ = ["MIN_SAMPLES", "check", "check_intake", "control_agreement", "neighbour_estimate",
+           "distribution_shape", "settle_reference", "with_learner_verdicts"]
 
 #: Fewer samples than this in a regime draws a warning: its tests have little power.
 MIN_SAMPLES = 30
@@ -145,45 +154,229 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
                         "leave this regime out for "
                         + ("it" if len(vs) == 1 else "them"))
 
-    # 3. the response matrix and the declared targets
-    response = response_matrix(moments, design)
-    row_of = {name: i for i, name in enumerate(response.regimes)}
-    col_of = {v: j for j, v in enumerate(response.variables)}
-    ref_targets = design.reference_targets()
-    targets: list[TargetCheck] = []
-    for r in design.interventional:
-        i = row_of[r.name]
-        for t in r.targets:
-            if t in ref_targets:
-                continue
-            j = col_of[t]
-            s, pv = float(response.shift[i, j]), float(response.pvalue[i, j])
-            verdict = MOVED if pv <= alpha else NOT_MOVED
-            targets.append(TargetCheck(r.name, t, r.known, s, pv, verdict))
-            if verdict == NOT_MOVED and r.known:
-                warnings.append(f"regime {r.name}: declared target {t} did not move (shift "
-                                f"{format_shift(s)} sd, p = {format_p(pv)} > {alpha:g}); the "
-                                f"intervention may have failed, and this regime carries no "
-                                f"orienting information for {t}")
-            elif verdict == NOT_MOVED:
-                warnings.append(f"regime {r.name}: hinted target {t} did not move (shift "
-                                f"{format_shift(s)} sd, p = {format_p(pv)}); the targets of "
-                                f"this known=no regime are learned from the data")
-        if not np.any(response.pvalue[i] <= alpha):
-            warnings.append(f"regime {r.name}: no variable moved at alpha {alpha:g}; the "
-                            "regime looks like a control")
-
-    # 4. control batches
+    # 3. control batches: do they agree? keep one reference, analyse the others apart
     controls = control_agreement(intake, alpha) if len(design.reference) > 1 else None
+    demoted: list[str] = []
     if controls is not None and not controls.agree:
+        design, demoted = settle_reference(moments, design, alpha)
         diff = "; ".join(f"{k} in {', '.join(v)}" for k, v in controls.differing.items() if v)
-        warnings.append(f"control batches differ ({diff}; Bonferroni-adjusted p <= {alpha:g}); "
-                        "pooling them into one reference mixes different laws")
+        kept = ", ".join(r.name for r in design.reference)
+        warnings.append(
+            f"control batches differ ({diff}; Bonferroni-adjusted p <= {alpha:g}); pooling them "
+            f"would mix different laws, so the reference is {kept}"
+            + (f" and {', '.join(demoted)} {'is' if len(demoted) == 1 else 'are'} analysed as "
+               "regime(s) with unknown targets (a batch effect shows up as their detected "
+               "targets)" if demoted else ""))
+
+    # 4. the response matrix against that reference
+    response = response_matrix(moments, design)
+
+    # 5. the declared targets: marginal law, and law given the target's neighbours
+    targets = _target_checks(moments, design, response, alpha)
+    for t in targets:
+        warnings.extend(_target_warning(t, alpha))
+    for i, name in enumerate(response.regimes):
+        if not np.any(response.marked(alpha)[i]):
+            warnings.append(f"regime {name}: no variable moved (Benjamini-Hochberg adjusted "
+                            f"p <= {alpha:g}); the regime looks like a control")
+
+    # 6. the shape of the distributions (the Gaussian tests' assumption)
+    shape = distribution_shape(moments)
+    if shape is not None and shape.far:
+        at = {v: j for j, v in enumerate(shape.variables)}
+        shown = "; ".join(f"{v}: skewness {shape.skewness[at[v]]:+.1f}, excess kurtosis "
+                          f"{shape.excess_kurtosis[at[v]]:.1f}" for v in shape.far[:5])
+        more = f" and {len(shape.far) - 5} more" if len(shape.far) > 5 else ""
+        warnings.append(
+            f"{len(shape.far)} variable(s) are far from Gaussian within regimes ({shown}{more}); "
+            "the invariance tests allow for heavy tails, but relations may be non-linear: "
+            "compare with --test rank")
 
     return CheckResult(design=design, samples=samples, targets=targets, response=response,
                        controls=controls, constant=constant, warnings=warnings, alpha=alpha,
                        dropped_rows=int(getattr(intake, "dropped_rows", 0) or 0),
-                       fingerprint=str(getattr(intake, "fingerprint", "") or ""))
+                       fingerprint=str(getattr(intake, "fingerprint", "") or ""),
+                       shape=shape, reference=[r.name for r in design.reference],
+                       demoted=demoted)
+
+
+def _target_checks(moments: Moments, design: Design, response: ResponseMatrix,
+                   alpha: float) -> list[TargetCheck]:
+    """Marginal and conditional invariance of every declared target in its regime."""
+    row_of = {name: i for i, name in enumerate(response.regimes)}
+    col_of = {v: j for j, v in enumerate(response.variables)}
+    ref_targets = design.reference_targets()
+    ref_names = [r.name for r in design.reference]
+    pending = [(r, t) for r in design.interventional for t in r.targets if t not in ref_targets]
+    if not pending:
+        return []
+    marginal = np.array([response.pvalue[row_of[r.name], col_of[t]] for r, t in pending])
+    adjusted = benjamini_hochberg(marginal)
+    nbrs = neighbour_estimate(moments, alpha)
+    out = []
+    for (r, t), pv, adj in zip(pending, marginal.tolist(), adjusted.tolist(), strict=True):
+        i, j = row_of[r.name], col_of[t]
+        given: tuple[str, ...] = ()
+        p_cond = None
+        if nbrs is not None:
+            cond = np.flatnonzero(nbrs[j])
+            n_k = int(moments.count[moments.index(r.name)])
+            if 0 < cond.size <= max(n_k - 3, 0):
+                res = regime_pair(moments, ref_names, r.name).test(np.array([j]), cond[None, :])
+                p_cond = float(res.pvalue[0])
+                given = tuple(moments.variables[c] for c in cond)
+        verdict = (MOVED if pv <= alpha else
+                   MOVED_GIVEN if p_cond is not None and p_cond <= alpha else NOT_MOVED)
+        out.append(TargetCheck(r.name, t, r.known, float(response.shift[i, j]), pv, verdict,
+                               sd_ratio=float(response.sd_ratio[i, j]), adjusted=adj,
+                               conditional_pvalue=p_cond, given=given))
+    return out
+
+
+def _target_warning(t: TargetCheck, alpha: float) -> list[str]:
+    moved = (f"shift {format_shift(t.shift)} sd, sd ratio {t.sd_ratio:.2f}, "
+             f"p = {format_p(t.pvalue)}")
+    given = (f"given {', '.join(t.given[:6])}{' ...' if len(t.given) > 6 else ''}"
+             if t.given else "")
+    if t.verdict == MOVED_GIVEN:
+        return [f"regime {t.regime}: declared target {t.target} kept its marginal mean and spread "
+                f"({moved}) but its law {given} changed (p = {format_p(t.conditional_pvalue)}): "
+                "the intervention acted on it"]
+    if t.verdict != NOT_MOVED:
+        return []
+    cond = (f" nor {given} (p = {format_p(t.conditional_pvalue)})" if t.conditional_pvalue
+            is not None else "")
+    if not t.known:
+        return [f"regime {t.regime}: hinted target {t.target} did not move ({moved}){cond}; the "
+                "targets of this known=no regime are learned from the data"]
+    return [f"regime {t.regime}: declared target {t.target} moved neither marginally ({moved}, "
+            f"> {alpha:g}){cond}: the intervention may have failed; learn checks it again given "
+            "its neighbours in the learned graph and leaves it out of the regime's intervention "
+            "node only if that test does not see it either"]
+
+
+def with_learner_verdicts(result: CheckResult, verdicts: list) -> CheckResult:
+    """The check with each declared target's conditional test taken from the learner.
+
+    `verdicts` are `pipeline.learner.targets.TargetVerdict` (given the target's neighbours
+    in the learned skeleton, a better conditioning set than the check's estimate). The
+    target warnings are rewritten to match; a target that failed both tests is reported
+    by the learner's own warning.
+    """
+    by_key = {(v.regime, v.target): v for v in verdicts}
+    if not by_key:
+        return result
+    old_texts = {w for t in result.targets for w in _target_warning(t, result.alpha)}
+    targets = []
+    for t in result.targets:
+        v = by_key.get((t.regime, t.target))
+        if v is not None:
+            verdict = (MOVED if t.pvalue <= result.alpha else
+                       MOVED_GIVEN if v.acted else NOT_MOVED)
+            t = replace(t, conditional_pvalue=v.p_conditional, given=v.given, verdict=verdict)
+        targets.append(t)
+    warnings = [w for w in result.warnings if w not in old_texts]
+    for t in targets:
+        if (t.regime, t.target) in by_key and t.verdict == NOT_MOVED:
+            continue  # the learner says it, with what it does about it
+        warnings.extend(_target_warning(t, result.alpha))
+    return replace(result, targets=targets, warnings=warnings)
+
+
+def neighbour_estimate(moments: Moments, alpha: float, max_variables: int = 500
+                       ) -> np.ndarray | None:
+    """Pairs with a partial correlation given all other variables (a Markov blanket estimate).
+
+    Per regime with more samples than variables + 3, the partial correlations given the
+    rest are read off the inverse of the correlation matrix; the regimes are combined as
+    in the stratified Fisher z test (`pipeline.independence.combine`). Returns a symmetric
+    (p, p) boolean matrix of the pairs with combined p <= alpha, or None when no regime
+    has enough samples or there are more than `max_variables` variables.
+    """
+    p = len(moments.variables)
+    if p < 2 or p > max_variables:
+        return None
+    const = moments.constant()
+    zs, ws = [], []
+    for k in range(len(moments.regimes)):
+        n = int(moments.count[k])
+        keep = np.flatnonzero(~const[k])
+        if n - keep.size - 1 <= 0 or keep.size < 2:
+            continue
+        sc = moments.scatter[k][np.ix_(keep, keep)]
+        d = np.sqrt(np.diagonal(sc))
+        corr = sc / np.outer(d, d)
+        try:
+            prec = np.linalg.inv(corr)
+        except np.linalg.LinAlgError:
+            continue
+        pd_ = np.sqrt(np.diagonal(prec))
+        r = np.zeros((p, p))
+        r[np.ix_(keep, keep)] = -prec / np.outer(pd_, pd_)
+        w = np.zeros((p, p))
+        w[np.ix_(keep, keep)] = max(n - (p - 2) - 3, 0)
+        zs.append(np.arctanh(np.clip(r, -1 + 1e-12, 1 - 1e-12)))
+        ws.append(w)
+    if not zs:
+        return None
+    z = np.stack(zs, axis=-1).reshape(p * p, -1)
+    w = np.stack(ws, axis=-1).reshape(p * p, -1)
+    pval = stratified_pvalues(z, w)[1].reshape(p, p)
+    adj = (pval <= alpha) & (w.sum(axis=1).reshape(p, p) > 0)
+    np.fill_diagonal(adj, False)
+    return adj & adj.T
+
+
+def distribution_shape(moments: Moments, skew_limit: float = 1.0,
+                       kurtosis_limit: float = 3.0) -> DistributionShape | None:
+    """Within-regime skewness and excess kurtosis of each variable, averaged over regimes.
+
+    A variable is far from Gaussian when ``|skewness| > skew_limit`` or ``excess kurtosis >
+    kurtosis_limit`` (rules of thumb: common practice). None without fourth moments.
+    """
+    if moments.m4 is None:
+        return None
+    skew, kurt = moments.shape()
+    n = np.asarray(moments.count, dtype=float)[:, None] * np.isfinite(skew)
+    total = np.where(n.sum(axis=0) > 0, n.sum(axis=0), 1.0)
+    mean_skew = np.nansum(np.nan_to_num(skew) * n, axis=0) / total
+    mean_kurt = np.nansum(np.nan_to_num(kurt) * n, axis=0) / total
+    far = tuple(v for v, s, k in zip(moments.variables, mean_skew, mean_kurt, strict=True)
+                if abs(s) > skew_limit or k > kurtosis_limit)
+    return DistributionShape(tuple(moments.variables), mean_skew, mean_kurt, far)
+
+
+def settle_reference(moments: Moments, design: Design, alpha: float
+                     ) -> tuple[Design, list[str]]:
+    """Keep one reference when control batches differ; the others become regimes apart.
+
+    The largest control (the first of equal size) is the reference; every other control is
+    tested against it (marginal invariance of each variable, Bonferroni over the
+    variables) and, when it differs, turned into a regime with unknown targets
+    (``known=False``), so that the learner finds what its batch effect acts on. Controls
+    that agree stay pooled into the reference.
+
+    Returns the new design and the names of the controls turned into regimes.
+    """
+    controls = list(design.reference)
+    if len(controls) < 2:
+        return design, []
+    sizes = [int(moments.count[moments.index(r.name)]) for r in controls]
+    chosen = controls[int(np.argmax(sizes))].name
+    p = len(moments.variables)
+    every, empty = np.arange(p), np.zeros((p, 0), dtype=np.intp)
+    demoted = []
+    for r in controls:
+        if r.name == chosen:
+            continue
+        res = regime_pair(moments, [chosen], r.name).test(every, empty)
+        if np.any(np.minimum(1.0, res.pvalue * p) <= alpha):
+            demoted.append(r.name)
+    if not demoted:
+        return design, []
+    regimes = tuple(replace(r, known=False, reference=False) if r.name in demoted else r
+                    for r in design.regimes)
+    return replace(design, regimes=regimes), demoted
 
 
 def control_agreement(intake: Intake, alpha: float = 0.01) -> ControlAgreement:

@@ -117,6 +117,9 @@ class Learned:
         Unshielded triples ``(a, c, b)`` whose collider status the rule could not decide.
     p_orientation : dict
         ``(u, v)`` -> p-value of the separating test behind the collider that directed it.
+    target_verdicts : list of TargetVerdict
+        The check of each declared target, marginally and given its neighbours
+        (`pipeline.learner.targets.verify_declared_targets`).
     tests_per_level : dict
         Conditioning-set size -> number of tests asked (all kinds).
     warnings, problems : list of str
@@ -135,6 +138,7 @@ class Learned:
     ambiguous: list[tuple[str, str, str]] = field(default_factory=list)
     p_orientation: dict[tuple[str, str], float] = field(default_factory=dict)
     tests_per_level: dict[int, int] = field(default_factory=dict)
+    target_verdicts: list[Any] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     problems: list[str] = field(default_factory=list)
     settings: dict[str, Any] = field(default_factory=dict)

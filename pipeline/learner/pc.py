@@ -49,7 +49,7 @@ from pipeline.independence.base import Tester
 from pipeline.learner.evidence import KeptPair, Learned, RemovedPair
 from pipeline.learner.orient import COLLIDER_RULES, augmented_skeleton, find_colliders
 from pipeline.learner.skeleton import Progress, learn_skeleton
-from pipeline.learner.targets import learn_targets
+from pipeline.learner.targets import TargetVerdict, learn_targets, verify_declared_targets
 from pipeline.options import TARGET_MODES
 
 __all__ = ["learn_graph", "TARGET_MODES"]
@@ -103,19 +103,25 @@ def learn_graph(
     # Step 1: the skeleton among measured variables (PC-stable, tests given the regime).
     sk = learn_skeleton(tester, names, alpha=alpha, max_condition_size=max_condition_size,
                         regimes=regime_names, progress=progress)
-    # Step 2: the adjacencies of the intervention nodes (invariance tests).
-    ts = learn_targets(tester, design, sk.adjacency, alpha=alpha,
+    # Step 2: the declared targets, checked given their neighbours: a regime whose target
+    # moved neither marginally nor conditionally failed on it, and its intervention node
+    # is not joined to that target (a false F -> X edge would orient X's other edges).
+    verdicts = (verify_declared_targets(tester, design, sk.adjacency, alpha=alpha)
+                if targets == "declared" else [])
+    learner_design, dropped = _without_failed(design, verdicts)
+    # Step 3: the adjacencies of the intervention nodes (invariance tests).
+    ts = learn_targets(tester, learner_design, sk.adjacency, alpha=alpha,
                        max_condition_size=max_condition_size, mode=targets, progress=progress)
-    # Step 3: colliders, decided order-independently; conflicts kept undirected.
-    cs = find_colliders(tester, design, sk, ts, alpha=alpha,
+    # Step 4: colliders, decided order-independently; conflicts kept undirected.
+    cs = find_colliders(tester, learner_design, sk, ts, alpha=alpha,
                         max_condition_size=max_condition_size, collider_rule=collider_rule,
                         progress=progress)
-    # Step 4: orient colliders, close under Meek's rules, check the result.
-    essential = orient_pattern(augmented_skeleton(design, sk, ts), cs.colliders,
+    # Step 5: orient colliders, close under Meek's rules, check the result.
+    essential = orient_pattern(augmented_skeleton(learner_design, sk, ts), cs.colliders,
                                keep_undirected=cs.keep_undirected)
     problems = list(essential_graph_problems(essential.graph))
 
-    # Step 5: the evidence, in variable order.
+    # Step 6: the evidence, in variable order.
     learned = Learned(essential=essential)
     name = names.__getitem__
     learned.removed.extend(
@@ -140,11 +146,17 @@ def learn_graph(
     learned.p_orientation = {e: pv for e, pv in cs.p_orientation.items()
                              if essential.graph.has_directed(*e)}
     levels: dict[int, int] = {}
-    for counts in (sk.tests_per_level, ts.tests_per_level, cs.tests_per_level):
+    checked: dict[int, int] = {}
+    for v in verdicts:
+        checked[0] = checked.get(0, 0) + 1
+        if v.p_conditional is not None:
+            checked[len(v.given)] = checked.get(len(v.given), 0) + 1
+    for counts in (sk.tests_per_level, checked, ts.tests_per_level, cs.tests_per_level):
         for lvl, n in counts.items():
             levels[lvl] = levels.get(lvl, 0) + n
     learned.tests_per_level = dict(sorted(levels.items()))
-    learned.warnings = ts.warnings + cs.warnings
+    learned.target_verdicts = verdicts
+    learned.warnings = dropped + ts.warnings + cs.warnings
     if problems:
         learned.warnings.append("the learned graph is not a valid essential graph: "
                                 + "; ".join(problems))
@@ -152,6 +164,33 @@ def learn_graph(
     learned.settings = {"alpha": alpha, "max_condition_size": max_condition_size,
                         "targets": targets, "collider_rule": collider_rule}
     return learned
+
+
+def _without_failed(design: Design, verdicts: list[TargetVerdict]
+                    ) -> tuple[Design, list[str]]:
+    """`design` without the declared targets no test saw move, and a warning for each."""
+    from dataclasses import replace
+
+    failed: dict[str, set[str]] = {}
+    for v in verdicts:
+        if not v.acted:
+            failed.setdefault(v.regime, set()).add(v.target)
+    if not failed:
+        return design, []
+    notes = []
+    for v in verdicts:
+        if not v.acted:
+            cond = (f" nor given {', '.join(v.given)} (p = {v.p_conditional:.2g})"
+                    if v.p_conditional is not None else "")
+            notes.append(f"regime {v.regime}: declared target {v.target} moved neither "
+                         f"marginally (p = {v.p_marginal:.2g}){cond}: the intervention seems "
+                         f"to have failed on it, so the learner does not use {v.regime} to "
+                         f"orient edges at {v.target}; check the perturbation (a failed guide "
+                         f"or dose?)")
+    regimes = tuple(replace(r, targets=tuple(t for t in r.targets
+                                             if t not in failed.get(r.name, ())))
+                    for r in design.regimes)
+    return replace(design, regimes=regimes), notes
 
 
 def _validate(design, tester, alpha, max_condition_size, targets, collider_rule,

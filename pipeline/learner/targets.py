@@ -54,7 +54,81 @@ from pipeline.learner.skeleton import (
     run_batched,
 )
 
-__all__ = ["TargetSearch", "learn_targets"]
+__all__ = ["TargetSearch", "TargetVerdict", "learn_targets", "verify_declared_targets"]
+
+
+@dataclass(frozen=True)
+class TargetVerdict:
+    """Did regime `regime` act on its declared target `target`?
+
+    Two invariance tests of ``F_regime`` against the target: with no conditioning set
+    (`p_marginal`) and given the target's neighbours in the measured skeleton
+    (`p_conditional`, `given`; None when it has none). In the augmented graph ``F_k`` is
+    adjacent to each of its targets, so no set separates them: a worked intervention
+    changes the conditional law even when it keeps the marginal mean and spread (a
+    variance change, or a do() that matches mean and sd). `acted` is False only when
+    neither test rejects: a failed intervention.
+    """
+
+    regime: str
+    target: str
+    p_marginal: float
+    p_conditional: float | None
+    given: tuple[str, ...]
+    acted: bool
+
+
+def verify_declared_targets(tester: Tester, design: Design, adjacency: np.ndarray, *,
+                            alpha: float) -> list[TargetVerdict]:
+    """Test every declared target of a known regime, marginally and given its neighbours.
+
+    Parameters
+    ----------
+    tester : Tester
+        Answers ``tester.invariance(regime, x, cond)``.
+    design : Design
+        The declared targets (the symmetric difference with the reference's).
+    adjacency : ndarray of bool, shape (p, p)
+        The measured skeleton.
+    alpha : float
+        A target acted when either test gives ``p <= alpha``.
+
+    Returns
+    -------
+    list of TargetVerdict
+        In design order of regimes and targets.
+    """
+    pos = {v: i for i, v in enumerate(design.variables)}
+    declared = design.intervention_targets()
+    out: list[TargetVerdict] = []
+    for r in design.interventional:
+        if not r.known:
+            continue
+        idx = sorted(pos[v] for v in declared[r.name])
+        if not idx:
+            continue
+        x = np.asarray(idx, dtype=np.intp)
+        marginal = np.asarray(tester.invariance(r.name, x, np.zeros((len(idx), 0), np.intp))
+                              .pvalue, dtype=float)
+        # the conditional tests, batched by the size of the neighbourhood
+        conditional: dict[int, tuple[float, tuple[int, ...]]] = {}
+        by_size: dict[int, list[int]] = {}
+        for i in idx:
+            nb = np.flatnonzero(adjacency[i])
+            if nb.size:
+                by_size.setdefault(nb.size, []).append(i)
+        for size, xs in by_size.items():
+            cond = np.asarray([np.flatnonzero(adjacency[i]) for i in xs], dtype=np.intp)
+            res = tester.invariance(r.name, np.asarray(xs, dtype=np.intp), cond.reshape(-1, size))
+            for i, pv, c in zip(xs, np.asarray(res.pvalue, dtype=float).tolist(), cond.tolist(),
+                                strict=True):
+                conditional[i] = (pv, tuple(c))
+        for i, pm in zip(idx, marginal.tolist(), strict=True):
+            pc, given = conditional.get(i, (None, ()))
+            acted = pm <= alpha or (pc is not None and pc <= alpha)
+            out.append(TargetVerdict(r.name, design.variables[i], pm, pc,
+                                     tuple(design.variables[j] for j in given), acted))
+    return out
 
 
 @dataclass
