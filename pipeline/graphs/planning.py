@@ -437,13 +437,15 @@ def plan_experiments(g: PDAG, candidates: Sequence[Node] | None = None, max_targ
     start = planner.initial()
     ranking = planner.rank(exps, start)
     notes: list[str] = []
+    steps = _steps(planner, exps, experiments, start, ranking, None, notes)
     method = "greedy"
-    chosen: list[tuple] | None = None
-    if (experiments > 1 and all(s.exact for s in ranking)
+    if (1 < experiments <= len(exps) and all(s.exact for s in ranking)
             and math.comb(len(exps), experiments) <= EXACT_SETS):
-        chosen = _best_set(planner, exps, experiments, start)
-        method = "exact"
-    steps = _steps(planner, exps, experiments, start, ranking, chosen, notes)
+        best, total = _best_set(planner, exps, experiments, start)
+        if sum(s.score.expected_oriented for s in steps) < total - 1e-9:
+            notes = []
+            steps = _steps(planner, exps, experiments, start, ranking, best, notes)
+        method = "exact"  # the greedy plan, when it reaches the best total, is optimal too
     if method == "exact" and not all(s.score.exact for s in steps):
         method = "greedy"
     bounds = planner.bounds(max_targets)
@@ -462,7 +464,8 @@ def _class_size(planner: Planner) -> int:
     return out
 
 
-def _best_set(planner: Planner, exps: list[tuple], m: int, start: dict) -> list[tuple]:
+def _best_set(planner: Planner, exps: list[tuple], m: int,
+              start: dict) -> tuple[list[tuple], float]:
     """The M-set with the largest expected number of oriented edges (then smaller class)."""
     best, best_key = None, None
     prefix: dict[tuple, dict] = {(): start}
@@ -478,7 +481,7 @@ def _best_set(planner: Planner, exps: list[tuple], m: int, start: dict) -> list[
         key = (-round(planner.oriented(final), 9), size)
         if best_key is None or key < best_key:
             best, best_key = combo, key
-    return [exps[i] for i in best]
+    return [exps[i] for i in best], -best_key[0]
 
 
 def _steps(planner: Planner, exps: list[tuple], m: int, start: dict,
