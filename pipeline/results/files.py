@@ -100,6 +100,7 @@ def report_sections(folder: str | Path) -> list[tuple[str, str]]:
 #: File, section title, module and type that reads it (``.read(path).html_section()``).
 _SECTIONS: tuple[tuple[str, str, str, str], ...] = (
     ("validation.json", "Held-out validation", "pipeline.results.validate", "ValidationResult"),
+    ("plan.json", "Which experiment next", "pipeline.results.plan", "PlanResult"),
 )
 
 
