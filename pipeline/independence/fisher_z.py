@@ -249,9 +249,11 @@ class _Strata:
         self.n_regimes = len(moments.regimes)
         self.selected = selected
         self.count = np.asarray(moments.count, dtype=float)[selected]
+        self.variance = float(moments.ci_variance)
         const = np.asarray(moments.constant())[selected]
         self.const_t = np.ascontiguousarray(const.T)  # (p, Ks)
-        self.flat = _correlation_flat(np.asarray(moments.scatter)[selected], const)
+        scatter = moments.scatter if moments.ci_scatter is None else moments.ci_scatter
+        self.flat = _correlation_flat(np.asarray(scatter)[selected], const)
         self.has_constant = bool(const.any())
         diag = self.flat[np.arange(self.p) * (self.p + 1)]
         self.has_zero_scale = bool((diag != 1.0).any())
@@ -263,7 +265,7 @@ class _Strata:
         ks = self.selected.shape[0]
         weight = self.count - l_size - 3
         enough = (weight > 0) & (self.count >= min_count)
-        weight = np.where(enough, weight, 0.0)
+        weight = np.where(enough, weight, 0.0) / self.variance
         pvalue = np.empty(m)
         unusable = np.empty((m, ks), dtype=bool)
         for sl in _chunks(m, ks):

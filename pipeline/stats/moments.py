@@ -79,6 +79,13 @@ class Moments:
     m3, m4 : float64 arrays (K, p) or None
         Per-variable sums of cubed and fourth-power deviations from the regime mean;
         None when unknown (the tests then take the tails as Gaussian).
+    ci_scatter : float64 array (K, p, p) or None
+        The matrices the conditional-independence tests read instead of `scatter` (the
+        rank variant: within-regime rank correlations turned into Pearson correlations;
+        see `pipeline.stats.ranks`); None: `scatter`.
+    ci_variance : float
+        The null variance of ``sqrt(n - |S| - 3) atanh(r)`` for those matrices (1 for
+        Pearson correlations).
     """
 
     variables: tuple[str, ...]
@@ -88,6 +95,8 @@ class Moments:
     scatter: np.ndarray
     m3: np.ndarray | None = None
     m4: np.ndarray | None = None
+    ci_scatter: np.ndarray | None = None
+    ci_variance: float = 1.0
 
     @classmethod
     def from_samples(cls, samples: dict[str, np.ndarray], variables: tuple[str, ...]) -> Moments:
@@ -149,7 +158,9 @@ class Moments:
         idx = [self.index(r) for r in regimes]
         return Moments(self.variables, tuple(regimes), self.count[idx], self.mean[idx],
                        self.scatter[idx], None if self.m3 is None else self.m3[idx],
-                       None if self.m4 is None else self.m4[idx])
+                       None if self.m4 is None else self.m4[idx],
+                       None if self.ci_scatter is None else self.ci_scatter[idx],
+                       self.ci_variance)
 
     def shape(self) -> tuple[np.ndarray, np.ndarray]:
         """Within-regime skewness and excess kurtosis of each variable, (K, p) each.
