@@ -164,7 +164,7 @@ def test_random_conflicting_patterns_always_give_a_valid_class():
     # size (clique-picking) matches a brute-force count (>= 1).
     rng = random.Random(2024)
     stages = set()
-    for trial in range(150):
+    for _ in range(150):
         g, cols, non = random_pattern(rng, rng.randint(4, 8), rng.uniform(0.3, 0.6))
         weights = [rng.random() for _ in cols]
         keep = [frozenset(e) for e in g.undirected_edges() if rng.random() < 0.1]

@@ -52,7 +52,14 @@ from pipeline.graphs.pdag import InterventionNode
 from pipeline.graphs.resolve import Resolution, resolve_orientations
 from pipeline.graphs.validity import essential_graph_problems
 from pipeline.independence.base import Tester
-from pipeline.learner.evidence import ChainEvidence, Conflict, KeptPair, Learned, RemovedPair
+from pipeline.learner.evidence import (
+    ChainEvidence,
+    ColliderEvidence,
+    Conflict,
+    KeptPair,
+    Learned,
+    RemovedPair,
+)
 from pipeline.learner.orient import (
     COLLIDER_RULES,
     ColliderSearch,
@@ -242,9 +249,8 @@ def _conflicts(design: Design, resolution: Resolution, cs: ColliderSearch,
     for r in resolution.rejected:
         a, c, b = r.collider
         strength = ev[r.collider].strength
-        why = {"contradiction": (f"the stronger collider {_arrows(_names(r.against))} "
-                                 f"(strength {ev[r.against].strength:.1f}) points the "
-                                 f"other way" if r.against in ev
+        why = {"contradiction": (_contradiction(ev[r.against], ev[r.collider])
+                                 if r.against in ev
                                  else "an experiment's arrow points the other way"),
                "cycle": "it would close the loop " + " -> ".join(map(str, (*r.against,
                                                                            r.against[0]))),
@@ -280,6 +286,15 @@ def _conflicts(design: Design, resolution: Resolution, cs: ColliderSearch,
                             reasons=tuple(why)))
     out.sort(key=lambda c: (order[c.source], order[c.target]))
     return out
+
+
+def _contradiction(kept: ColliderEvidence, lost: ColliderEvidence) -> str:
+    """Why `kept` went before `lost`, in words."""
+    arrows = f"{kept.a} -> {kept.c} <- {kept.b}"
+    if round(kept.strength, 1) > round(lost.strength, 1):
+        return f"the stronger collider {arrows} (strength {kept.strength:.1f}) points the other way"
+    return (f"the collider {arrows}, as strong but with the clearer separation "
+            f"(p = {kept.p_separation:.2g} against {lost.p_separation:.2g}), points the other way")
 
 
 def _resolution_warnings(learned: Learned) -> list[str]:
