@@ -56,12 +56,25 @@ class Explanation:
     sentence: str = ""
 
 
+def _and(s: tuple[str, ...] | list[str]) -> str:
+    """``A``, ``A and B``, ``A, B and C``."""
+    s = list(s)
+    return s[0] if len(s) == 1 else ", ".join(s[:-1]) + f" and {s[-1]}"
+
+
 def _given(s: tuple[str, ...] | list[str]) -> str:
-    return f" given {', '.join(s)}" if s else ""
+    return f" given {_and(s)}" if s else ""
 
 
 def _once(s: tuple[str, ...] | list[str]) -> str:
-    return ", ".join(s) if s else "nothing else"
+    """``once A is accounted for``, ``once A and B are accounted for``."""
+    return f"once {_and(s)} {'is' if len(s) == 1 else 'are'} accounted for"
+
+
+def _p(v: float | None) -> str:
+    """``p = 0.012``, ``p < 1e-300``."""
+    text = format_p(v)
+    return f"p {text}" if text.startswith("<") else f"p = {text}"
 
 
 def _test(role: str, x: str, y: str, given: tuple | list, p: float | None,
@@ -104,14 +117,12 @@ class _Explainer:
                  _test("adjacency", str(other), v, (), self._f_adjacency(other, v))]
         if ev.regime is None:
             text = (f"{u} and {other} are unrelated{_given(ev.separating_set)} "
-                    f"(p = {format_p(ev.p_separation)}) but related once {v} is accounted "
-                    f"for (p = {format_p(ev.p_dependence)}): both act on {v}")
+                    f"({_p(ev.p_separation)}) but related once {v} is accounted "
+                    f"for ({_p(ev.p_dependence)}): both act on {v}")
         else:
             text = (f"experiment {ev.regime}, which acts on {v}, left {u} unchanged"
-                    + (f" once {_once(ev.separating_set)} is accounted for"
-                       if ev.separating_set else "")
-                    + f" (p = {format_p(ev.p_separation)}), so {u} acts on {v} and not the "
-                      f"reverse")
+                    + (f" {_once(ev.separating_set)}" if ev.separating_set else "")
+                    + f" ({_p(ev.p_separation)}), so {u} acts on {v} and not the reverse")
         return ({"edge": f"{u} -> {v}", "rule": "collider" if ev.regime is None
                  else "intervention", "via": [ev.regime or str(other)], "tests": tests,
                  "text": text}, ev.strength)
@@ -136,21 +147,20 @@ class _Explainer:
                      "tests": tests,
                      "text": f"experiment {k} acts on {u} and the graph stays consistent "
                              f"only this way; the tests could not tell whether {v} stays put "
-                             f"once {_once(sep or (u,))} is accounted for"}, 0.0)
+                             f"{_once(sep or (u,))}"}, 0.0)
         tests = [_test("dependence", str(f), v, (), ch.p_dependence, k),
                  _test("separation", str(f), v, ch.separating_set, ch.p_separation, k),
                  _test("adjacency", u, v, (), p_adj)]
         strength = strength_of(max(0.0 if ch.p_dependence is None else ch.p_dependence,
                                    0.0 if p_adj is None else p_adj))
-        once = _once(ch.separating_set)
+        once = _once(ch.separating_set or (u,))
         if ch.p_dependence is not None and ch.p_dependence <= self.alpha:
-            text = (f"experiment {k} acts on {u} and changed {v} "
-                    f"(p = {format_p(ch.p_dependence)}), but not once {once} is accounted "
-                    f"for (p = {format_p(ch.p_separation)}): the effect runs from {u} to {v}")
+            text = (f"experiment {k} acts on {u} and changed {v} ({_p(ch.p_dependence)}), "
+                    f"but not {once} ({_p(ch.p_separation)}): the effect runs from {u} to {v}")
         else:
-            text = (f"experiment {k} acts on {u}, and {v} stays put once {once} is accounted "
-                    f"for (p = {format_p(ch.p_separation)}), so {v} does not act on {u} "
-                    f"(the change of {v} itself is weak: p = {format_p(ch.p_dependence)})")
+            text = (f"experiment {k} acts on {u}, and {v} stays put {once} "
+                    f"({_p(ch.p_separation)}), so {v} does not act on {u} (the change of {v} "
+                    f"itself is weak: {_p(ch.p_dependence)})")
         return ({"edge": f"{u} -> {v}", "rule": "intervention", "via": [k], "tests": tests,
                  "text": text}, strength)
 
@@ -164,7 +174,7 @@ class _Explainer:
             if r is not None:
                 tests.append(_test("separation", r.x, r.y, r.separating_set, r.pvalue))
             text = (f"it follows from {a} -> {u}: {a} and {v} are not linked directly"
-                    + (f" (unrelated{_given(r.separating_set)}, p = {format_p(r.pvalue)})"
+                    + (f" (unrelated{_given(r.separating_set)}, {_p(r.pvalue)})"
                        if r is not None else "")
                     + f", and {v} -> {u} would make them meet at {u}, which the tests ruled "
                       f"out")
