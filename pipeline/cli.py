@@ -120,10 +120,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)  # argparse itself exits 2 on a bad command line
     debug = bool(getattr(args, "debug", False))
+    from pipeline.provenance import running_command
+
     try:
         if getattr(args, "config", None):
             args = _apply_config(args, argv[argv.index(args.command) + 1:])
-        return int(args._module.run(args) or 0)
+        with running_command(argv):
+            return int(args._module.run(args) or 0)
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2

@@ -10,7 +10,9 @@ then:
 3. checks the inputs from the statistics (`pipeline.analyses.check.check_intake`);
 4. runs the learner (`pipeline.learner.pc.learn_graph`) with the Gaussian tester behind
    the store, so that only tests never run before are computed;
-5. wraps the outcome in a `LearnResult` and, with an output folder, saves its files.
+5. wraps the outcome in a `LearnResult` with its provenance (input files with sizes and
+   hashes, version, date, command line: `pipeline.provenance`) and, with an output
+   folder, saves its files.
 
 `learn_from_moments` runs steps 3-5 on sufficient statistics already in memory.
 """
@@ -178,6 +180,10 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                             progress=progress, check=True)
             result.run["from_store"] = stored is not None
             result.run["seconds"] = time.perf_counter() - started
+            # where the result comes from: inputs (sizes, hashes), version, date, command
+            from pipeline.provenance import provenance
+
+            result.provenance = provenance(paths, regimes_path)
             # 5. the files
             if out is not None:
                 result.run["files"] = {k: str(v) for k, v in result.save(out).items()}
@@ -242,10 +248,14 @@ def learn_from_moments(design: Design, moments: Moments, *, alpha: float = 0.01,
     settings = {"alpha": alpha, "max_condition_size": max_k, "targets": targets, "test": test,
                 "collider_rule": collider_rule, "reference": None,
                 "fingerprint": fingerprint or ""}
-    return _learn(design, moments, intake=None, store=store, fingerprint=fingerprint or "",
-                  alpha=alpha, max_condition_size=max_k, targets=targets,
-                  collider_rule=collider_rule, settings=settings, progress=progress,
-                  check=check)
+    result = _learn(design, moments, intake=None, store=store, fingerprint=fingerprint or "",
+                    alpha=alpha, max_condition_size=max_k, targets=targets,
+                    collider_rule=collider_rule, settings=settings, progress=progress,
+                    check=check)
+    from pipeline.provenance import provenance
+
+    result.provenance = provenance([])  # statistics given in memory: no input file
+    return result
 
 
 def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str, alpha: float,

@@ -106,3 +106,25 @@ def test_demo_runs_check_and_learn(tmp_path, capsys):
     printed = capsys.readouterr().out
     assert "Input check" in printed and str(out / "report.html") in printed.replace("\n", "")
     assert (out / "report.html").is_file() and (out / "result.json").is_file()
+
+
+def test_compare_with_true_regimes(tmp_path, capsys):
+    # Fork A -> B, A -> C; regime kd_A really acted on B (worked by hand: under {B} only
+    # A -> B is identified; Hauser & Buhlmann 2012). The learned result orients both.
+    (tmp_path / "dag.csv").write_text("source,target\nA,B\nA,C\n")
+    (tmp_path / "truth_regimes.csv").write_text("regime,targets\nctrl,\nkd_A,B\n")
+    _write_result(tmp_path / "result.json",
+                  [{"source": "A", "target": "B", "orientation": "directed"},
+                   {"source": "A", "target": "C", "orientation": "directed"}])
+    args = ["compare", str(tmp_path), "--truth-dag", str(tmp_path / "dag.csv"),
+            "--truth-regimes", str(tmp_path / "truth_regimes.csv")]
+    assert cli.main([*args, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["shd"] == 0  # the old field: against the result's own targets
+    assert out["against_true_design"]["shd"] == 1
+    assert out["against_dag"]["orientation_recall"] == 1.0
+    assert cli.main(args) == 0
+    assert "true targets" in capsys.readouterr().out
+    (tmp_path / "truth_regimes.csv").write_text("regime,targets\nctrl,\n")
+    assert cli.main(args) == 2
+    assert "kd_A" in capsys.readouterr().err

@@ -75,9 +75,11 @@ def test_parses_and_has_one_mark_per_edge_and_node():
 
 def test_heads_only_on_directed_edges_and_conflicts_dashed():
     nodes, edges = _mixed()
+    edges.append(EdgeRecord("B", "D", "directed", "collider", ["E"], 1e-3, conflict=True,
+                            strength=2.5, explanation="B -> D: why."))
     marks = _edges(_parse(graph_svg(nodes, edges)))
     for e, mark in zip(edges, marks, strict=True):
-        directed = e.orientation == "directed" and not e.conflict
+        directed = e.orientation == "directed"
         assert (mark.get("marker-end") is not None) == directed
         assert (mark.get("stroke-dasharray") is not None) == e.conflict
         # the tooltip carries the evidence: ends, rule, via, p adjacency
@@ -87,7 +89,9 @@ def test_heads_only_on_directed_edges_and_conflicts_dashed():
         assert "p_adjacency" in tip
     kinds = [m.get("stroke") for m in marks]
     assert kinds == [COLOURS["intervention"], COLOURS["meek"], COLOURS["collider"],
-                     COLOURS["undirected"], COLOURS["conflict"]]
+                     COLOURS["undirected"], COLOURS["conflict"], COLOURS["conflict"]]
+    assert marks[-1].find("title").text.endswith("strength 2.5; conflicting evidence. "
+                                                 "B -> D: why.")
     # every marker an edge points to is defined in <defs>
     svg = graph_svg(nodes, edges)
     root = _parse(svg)

@@ -1,4 +1,5 @@
-"""Collider decisions: conflicts, the three rules, and the p-value behind each collider.
+"""Collider decisions: conflicts settled by strength, the three rules, and the evidence behind
+each collider.
 
 Sources: Colombo & Maathuis (2014) for the conservative and majority rules and for
 conflicting v-structures; Spirtes, Glymour & Scheines (2000) for the standard rule.
@@ -56,28 +57,42 @@ def control_only(names):
 
 
 @pytest.mark.parametrize("rule", ["standard", "majority", "conservative"])
-def test_conflicting_colliders_keep_the_edge_undirected(rule):
+@pytest.mark.parametrize("weak", ["A-C", "B-D"])
+def test_conflicting_colliders_are_settled_by_strength(rule, weak):
     # A - B - C - D with A _||_ C (B not in any separating set) and B _||_ D (C never in
     # one): colliders A -> B <- C and B -> C <- D direct B - C both ways, the conflict of
-    # Colombo & Maathuis (2014, section 5).
+    # Colombo & Maathuis (2014, section 5). The collider whose dependence test (the ends
+    # given the separating set plus the centre) rejects less strongly is set aside.
     names = ("A", "B", "C", "D")
-    tester = RuleTester(names, [("A", "C", 0.5, (), ("B",)), ("B", "D", 0.4, (), ("C",)),
-                                ("A", "D", 0.6, (), ())])
-    learned = learn_graph(control_only(names), tester, alpha=0.05, collider_rule=rule)
+    rules = [("A", "C", 0.5, (), ("B",)), ("B", "D", 0.4, (), ("C",)),
+             ("A", "D", 0.6, (), ())]
+    # the weak pair is dependent given its centre only at p = 0.03 (alpha 0.05)
+    rules.append(("A", "C", 0.03, ("B",), ()) if weak == "A-C" else ("B", "D", 0.03, ("C",), ()))
+    learned = learn_graph(control_only(names), RuleTester(names, rules), alpha=0.05,
+                          collider_rule=rule)
     g = learned.graph
-    assert g.has_undirected("B", "C")
-    assert g.has_directed("A", "B") and g.has_directed("D", "C")
-    assert len(learned.conflicts) == 1
-    c = learned.conflicts[0]
-    assert (c.source, c.target) == ("B", "C")
+    if weak == "B-D":  # A -> B <- C kept; C - D is left to the class
+        assert sorted(g.directed_edges()) == [("A", "B"), ("C", "B")]
+        assert g.has_undirected("C", "D")
+        kept, strong, free = "C -> B", ("A", "B", "C"), ("C", "D", "C - D")
+        assert learned.p_orientation == {("A", "B"): 0.5, ("C", "B"): 0.5}
+    else:  # B -> C <- D kept; A - B is left to the class
+        assert sorted(g.directed_edges()) == [("B", "C"), ("D", "C")]
+        assert g.has_undirected("A", "B")
+        kept, strong, free = "B -> C", ("B", "C", "D"), ("A", "B", "A - B")
+        assert learned.p_orientation == {("B", "C"): 0.4, ("D", "C"): 0.4}
+    # the collider set aside stays recorded on both its edges
+    conflicts = {(c.source, c.target): c for c in learned.conflicts}
+    assert {(c.source, c.target, c.kept) for c in learned.conflicts} == {("B", "C", kept), free}
+    c = conflicts[("B", "C")]
     assert set(c.colliders) == {("A", "B", "C"), ("B", "C", "D")}
-    assert any("conflict" in w and "B - C" in w for w in learned.warnings)
-    # p_orientation: the p of the separating test behind each collider
-    assert learned.p_orientation == {("A", "B"): 0.5, ("D", "C"): 0.4}
-    assert learned.essential.reasons[("A", "B")].rule == "collider"
-    # the result is not a valid essential graph (A -> B - C induced) and says so
-    assert learned.problems and not learned.valid
-    assert any("B - C" in p for p in learned.problems)
+    assert len(c.reasons) == 1 and "set aside" in c.reasons[0] and "stronger" in c.reasons[0]
+    assert any("disagree" in w and kept in w for w in learned.warnings)
+    ev = learned.colliders[strong]
+    assert ev.p_dependence == 0.0 and ev.strength == 300.0
+    # a valid essential graph: two DAGs (the free edge either way)
+    assert learned.problems == [] and learned.valid
+    assert learned.essential.class_size() == 2
 
 
 def test_majority_and_conservative_rules_differ_on_a_split_vote():
@@ -112,8 +127,11 @@ def test_majority_asks_each_size_in_one_call():
     ts = learn_targets(tester, design, sk.adjacency, alpha=0.05)
     before = tester.calls
     cs = find_colliders(tester, design, sk, ts, alpha=0.05, collider_rule="majority")
-    # pairs A-C and B-D: sets of sizes 0, 1, 2 -> one call per size
-    assert tester.calls - before == len(cs.tests_per_level) == 3
+    # pairs A-C and B-D: sets of sizes 0, 1, 2 -> one call per size; then the collider
+    # A -> B <- C asks A _||_ C | {B}: one more call
+    assert len(cs.tests_per_level) == 3
+    assert tester.calls - before == 4
+    assert cs.colliders == [("A", "B", "C")] and cs.non_colliders == [("B", "C", "D")]
     with pytest.raises(ValueError, match="collider_rule"):
         find_colliders(tester, design, sk, ts, alpha=0.05, collider_rule="vote")
 

@@ -137,3 +137,31 @@ def test_to_networkx_and_summary(observational):
     text = observational.summary()
     assert "5 edges (4 directed, 1 undirected)" in text
     assert "DAGs in the class: 2" in text
+
+
+def test_report_shows_strength_and_why(tmp_path, with_knockdown):
+    with_knockdown.save(tmp_path)
+    page = (tmp_path / "report.html").read_text()
+    assert "<th>strength</th>" in page and "<th>why</th>" in page
+    assert "p orientation" not in page  # the strength replaces it on the page
+    rec = ResultRecord.read(tmp_path / "result.json")
+    for e in rec.edges:
+        assert e.explanation
+        if e.orientation == "directed":
+            assert e.strength is not None and e.chain
+    # result.json keeps p_orientation for the contract
+    assert all("p_orientation" in e for e in json.loads(
+        (tmp_path / "result.json").read_text())["edges"])
+
+
+def test_report_names_conflicts_in_a_banner():
+    from pipeline.results.report import render_report
+    from pipeline.results.schema import EdgeRecord, RegimeRecord
+
+    rec = ResultRecord(nodes=["A", "B"], regimes=[RegimeRecord("ctrl", [], reference=True)],
+                       edges=[EdgeRecord("A", "B", "directed", conflict=True, strength=1.2,
+                                         notes=["X -> Y from the collider ... was set aside"])],
+                       class_size=1)
+    page = render_report(rec)
+    assert "The tests disagree about 1 edge(s) (A -&gt; B)" in page
+    assert "set aside" in page and "1.2" in page

@@ -67,3 +67,40 @@ def test_score_undefined_fractions_are_none():
     s = score(_g("AB"), _g("AB"))
     assert s.shd == 0
     assert s.adjacency_precision is None and s.orientation_recall is None
+
+
+def _record(edges, declared):
+    from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
+
+    return ResultRecord(
+        nodes=["A", "B", "C"],
+        regimes=[RegimeRecord("ctrl", [], reference=True), RegimeRecord("kd", list(declared))],
+        edges=[EdgeRecord(u, v, "directed") for u, v in edges], class_size=1)
+
+
+def test_compare_uses_the_true_targets_and_the_dag_as_fixed_references():
+    # Truth: the fork A -> B, A -> C. The regime declares A but really acted on B.
+    # Essential graphs (Hauser & Buhlmann 2012), worked by hand: under {A}, F -> A - B and
+    # F -> A - C orient both edges (Meek's rule 1); under {B}, F -> B <- A orients A -> B
+    # only, A - C stays undirected.
+    import networkx as nx
+
+    from pipeline.analyses.scoring import compare_result
+    from pipeline.design import Regime
+
+    dag = nx.DiGraph([("A", "B"), ("A", "C")])
+    rec = _record([("A", "B"), ("A", "C")], ["A"])
+    truth = [Regime("ctrl", (), reference=True), Regime("kd", ("B",))]
+    c = compare_result(rec, dag, truth)
+    assert c.design.shd == 0                     # the result's own (declared) design
+    assert c.true_design.shd == 1                # A - C is not identified by the truth
+    assert (c.true_design.orientation_precision, c.true_design.orientation_recall) == (0.5, 1.0)
+    assert c.dag.shd == 0 and c.dag.orientation_recall == 1.0
+    d = c.to_dict()
+    assert d["shd"] == 0 and d["against_true_design"]["shd"] == 1
+    assert d["true_design_targets"] == "true"
+    # without the true targets the declared ones stand in
+    assert compare_result(rec, dag).true_design.shd == 0
+    with pytest.raises(ValueError, match="kd"):
+        compare_result(rec, dag, [Regime("ctrl", (), reference=True)])
+    assert "true DAG" in c.summary() and "true targets" in c.summary()

@@ -24,9 +24,10 @@ from __future__ import annotations
 import networkx as nx
 
 from pipeline.graphs.pdag import PDAG
-from pipeline.results.scores import Scores
+from pipeline.results.scores import Comparison, Scores
 
-__all__ = ["Scores", "shd", "score", "result_targets", "score_result"]
+__all__ = ["Scores", "Comparison", "shd", "score", "result_targets", "score_result",
+           "truth_targets", "compare_result"]
 
 
 def _check_same_nodes(a: PDAG, b: PDAG) -> None:
@@ -152,22 +153,99 @@ def score_result(record, dag: nx.DiGraph) -> tuple[Scores, PDAG]:
     ValueError
         If `dag` names a node that is not in the result.
     """
-    from pipeline.graphs.essential import essential_graph
+    full = _full_dag(record, dag)
+    targets, reference = result_targets(record)
+    truth = _essential(record, full, targets, reference)
+    return score(record.graph(), truth), truth
 
-    extra = sorted(set(dag.nodes) - set(record.nodes))
+
+def _full_dag(record, dag: nx.DiGraph) -> nx.DiGraph:
+    extra = sorted(map(str, set(dag.nodes) - set(record.nodes)))
     if extra:
         raise ValueError(f"the true DAG has nodes that the result lacks: {', '.join(extra)}")
     full = nx.DiGraph()
     full.add_nodes_from(record.nodes)
     full.add_edges_from(dag.edges)
-    targets, reference = result_targets(record)
+    return full
+
+
+def _essential(record, full: nx.DiGraph, targets, reference) -> PDAG:
+    """The essential graph of `full` under the targets, over the result's node order."""
+    from pipeline.graphs.essential import essential_graph
+
     truth = essential_graph(full, targets, reference).graph
-    learned = record.graph()
-    # compare over one node order (the result's)
-    truth = truth.subgraph(record.nodes)
     ordered = PDAG(record.nodes)
     for u, v in truth.directed_edges():
         ordered.add_directed(u, v)
     for u, v in truth.undirected_edges():
         ordered.add_undirected(u, v)
-    return score(learned, ordered), ordered
+    return ordered
+
+
+def truth_targets(record, truth_regimes=None) -> tuple[dict[str, list[str]], list[str]]:
+    """The targets that really acted, per regime of the result: ``(targets, reference)``.
+
+    Parameters
+    ----------
+    record : ResultRecord
+    truth_regimes : sequence of Regime, optional
+        The actual targets (``truth_regimes.csv`` of ``simulate``). None: the declared
+        targets of every regime of the result (whatever the learner detected), so every
+        run on the same regimes file meets the same yardstick.
+
+    Raises
+    ------
+    ValueError
+        If a regime of the result has no row in `truth_regimes`.
+    """
+    if truth_regimes is None:
+        actual = {r.name: list(r.targets) for r in record.regimes}
+    else:
+        actual = {r.name: list(r.targets) for r in truth_regimes}
+        missing = [r.name for r in record.regimes if r.name not in actual]
+        if missing:
+            raise ValueError(f"regime(s) {', '.join(missing)} of the result have no row in "
+                             f"the true regimes")
+    targets: dict[str, list[str]] = {}
+    reference: list[str] = []
+    for r in record.regimes:
+        if r.reference:
+            reference.extend(t for t in actual[r.name] if t not in reference)
+        else:
+            targets[r.name] = actual[r.name]
+    return targets, reference
+
+
+def compare_result(record, dag: nx.DiGraph, truth_regimes=None) -> Comparison:
+    """Score a result on fixed yardsticks: the true DAG and its true essential graph.
+
+    Parameters
+    ----------
+    record : ResultRecord
+    dag : nx.DiGraph
+        The true DAG.
+    truth_regimes : sequence of Regime, optional
+        The targets that really acted (see `truth_targets`).
+
+    Returns
+    -------
+    Comparison
+        Scores against the true DAG itself (every true edge directed), against the
+        essential graph of the DAG under the true targets (the same for every run on
+        these regimes, whatever its settings), and, as before, against the essential
+        graph under the targets the result was learned with.
+
+    Raises
+    ------
+    ValueError
+        If `dag` names a node the result lacks, or a regime has no true targets.
+    """
+    full = _full_dag(record, dag)
+    learned = record.graph()
+    own = _essential(record, full, *result_targets(record))
+    fixed = _essential(record, full, *truth_targets(record, truth_regimes))
+    as_dag = PDAG(record.nodes)
+    for u, v in full.edges:
+        as_dag.add_directed(u, v)
+    return Comparison(design=score(learned, own), true_design=score(learned, fixed),
+                      dag=score(learned, as_dag), true_targets=truth_regimes is not None)

@@ -1,4 +1,4 @@
-"""``orienteer compare``: score a result against a known DAG under the same regimes."""
+"""``orienteer compare``: score a result against a known DAG and its true essential graph."""
 
 from __future__ import annotations
 
@@ -7,13 +7,17 @@ from pathlib import Path
 
 from pipeline.errors import InputError
 
-HELP = "score a result against a known DAG: SHD, adjacency and orientation precision and recall"
+HELP = ("score a result against a known DAG and its essential graph under the true targets: "
+        "SHD, adjacency and orientation precision and recall")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("result", nargs="?", metavar="RESULT",
                         help="result.json of learn (or the folder holding it)")
     parser.add_argument("--truth-dag", metavar="DAG", help="the true DAG: dag.csv (source,target)")
+    parser.add_argument("--truth-regimes", metavar="REGIMES",
+                        help="the targets that really acted (regime,targets; e.g. "
+                             "truth_regimes.csv of simulate); default: the declared targets")
     parser.add_argument("--json", action="store_true", help="print the scores as JSON")
 
 
@@ -26,7 +30,7 @@ def run(args: argparse.Namespace) -> int:
 
     from rich.console import Console
 
-    from pipeline.analyses.scoring import score_result
+    from pipeline.analyses.scoring import compare_result
     from pipeline.intake.dag import read_dag_csv
     from pipeline.results.schema import ResultRecord
 
@@ -35,14 +39,32 @@ def run(args: argparse.Namespace) -> int:
         path = path / "result.json"
     record = ResultRecord.read(path)
     dag = read_dag_csv(args.truth_dag, extra_nodes=record.nodes)
+    truth = None
+    if args.truth_regimes:
+        from pipeline.intake.regimes import read_regimes
+
+        truth = read_regimes(args.truth_regimes, variables=record.nodes,
+                             reference=_reference(record))
+        missing = [r.name for r in record.regimes if r.name not in {t.name for t in truth}]
+        if missing:
+            raise InputError(f"--truth-regimes {args.truth_regimes}: no row for regime(s) "
+                             f"{', '.join(missing)} of {path}; add them (empty targets for a "
+                             f"control)")
     try:
-        scores, _ = score_result(record, dag)
+        comparison = compare_result(record, dag, truth)
     except ValueError as exc:
         raise InputError(f"--truth-dag {args.truth_dag}: {exc}; the DAG and the result must "
                          f"name the same variables") from None
     if args.json:
-        out = {"result": str(path), "truth_dag": str(args.truth_dag), **scores.to_dict()}
+        out = {"result": str(path), "truth_dag": str(args.truth_dag),
+               "truth_regimes": args.truth_regimes, **comparison.to_dict()}
         print(json.dumps(out, indent=2, allow_nan=False))
     else:
-        scores.print(Console(), title=f"{path} against {args.truth_dag}")
+        comparison.print(Console(), title=f"{path} against {args.truth_dag}")
     return 0
+
+
+def _reference(record) -> str | None:
+    """The result's reference regime when it has targets (so reading needs its name)."""
+    refs = [r for r in record.regimes if r.reference]
+    return refs[0].name if len(refs) == 1 and refs[0].targets else None

@@ -50,12 +50,16 @@ def run(args: argparse.Namespace) -> int:
     result.print(console)
     truth = folder / "truth_dag.csv"
     if truth.is_file():
-        from pipeline.analyses.scoring import score_result
+        from pipeline.analyses.scoring import compare_result
         from pipeline.intake.dag import read_dag_csv
+        from pipeline.intake.regimes import read_regimes
 
         console.rule("[bold]3. against the true circuit (known for invented data)[/bold]")
-        scores, _ = score_result(result.record(), read_dag_csv(truth, extra_nodes=result.record(
-            ).nodes))
-        scores.print(console)
+        record = result.record()
+        actual = folder / "truth_regimes.csv"
+        truth_regimes = (read_regimes(actual, variables=record.nodes) if actual.is_file()
+                         else None)
+        compare_result(record, read_dag_csv(truth, extra_nodes=record.nodes),
+                       truth_regimes).print(console)
     print_files(out, console)
     return 0

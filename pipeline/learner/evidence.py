@@ -19,13 +19,33 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
 from pipeline.graphs.essential import EssentialGraph
 from pipeline.graphs.pdag import PDAG, InterventionNode
 
-__all__ = ["RemovedPair", "KeptPair", "TargetFinding", "Conflict", "Learned"]
+__all__ = ["RemovedPair", "KeptPair", "TargetFinding", "Conflict", "ColliderEvidence",
+           "ChainEvidence", "Learned", "strength_of"]
+
+#: The largest strength reported: -log10 of the smallest p a double holds, rounded.
+MAX_STRENGTH = 300.0
+
+
+def strength_of(p: float | None) -> float:
+    """The strength ``-log10 p`` of a p-value that must be small, capped at 300.
+
+    None (an adjacency declared, not tested) counts as p = 0.
+
+    >>> strength_of(1e-5), strength_of(None), strength_of(1.0)
+    (5.0, 300.0, 0.0)
+    """
+    if p is None or p <= 0.0:
+        return MAX_STRENGTH
+    if p != p:  # NaN: no evidence
+        return 0.0
+    return min(MAX_STRENGTH, max(0.0, -math.log10(min(1.0, float(p)))))
 
 
 @dataclass(frozen=True)
@@ -83,15 +103,70 @@ class TargetFinding:
 
 @dataclass(frozen=True)
 class Conflict:
-    """An edge that colliders direct both ways; it is left undirected.
+    """An edge on which decisions of the learner disagree, and how it was settled.
 
     `colliders` holds the unshielded triples ``(a, c, b)`` behind each direction: those
     orienting ``source -> target`` first, then those orienting ``target -> source``.
+    `kept` is what the result shows (``"A -> B"``, ``"B -> A"`` or ``"A - B"``);
+    `reasons` are plain sentences, one per decision set aside.
     """
 
     source: str
     target: str
     colliders: tuple[tuple[str, str, str], ...]
+    kept: str = ""
+    reasons: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class ColliderEvidence:
+    """The tests behind a collider ``a -> c <- b`` (``b`` may be an intervention node).
+
+    The collider holds when `a` and `b` are separated by a set without `c`
+    (`p_separation` large, set `separating_set`), become dependent once `c` joins that
+    set (`p_dependence` small), and `c` stays adjacent to both (`p_adjacency`: the
+    largest p of the tests that kept ``a - c`` and ``b - c``; None for an experiment's
+    declared target). `share` is the fraction of separating sets holding `c`. For an
+    intervention node `b` of regime `regime`, the tests are invariance tests of `a`.
+    """
+
+    a: str
+    c: str
+    b: str
+    separating_set: tuple[str, ...]
+    p_separation: float
+    p_dependence: float | None
+    p_adjacency: tuple[float | None, float | None]
+    share: float = 0.0
+    regime: str | None = None
+
+    @property
+    def weakest_p(self) -> float:
+        """The largest p among the tests that must reject (dependence and adjacencies)."""
+        ps = [self.p_dependence, *self.p_adjacency]
+        return max(0.0 if p is None else float(p) for p in ps)
+
+    @property
+    def strength(self) -> float:
+        """``-log10`` of `weakest_p` (see `strength_of`)."""
+        return strength_of(self.weakest_p)
+
+
+@dataclass(frozen=True)
+class ChainEvidence:
+    """The tests behind ``x -> y`` when an experiment on `x` reaches `y` through `x`.
+
+    ``F -> x - y`` with ``F`` (regime `regime`) and `y` separated by a set holding `x`
+    (`p_separation`, `separating_set`): `y` changed under the experiment
+    (`p_dependence`, the invariance test of `y` alone) but not once `x` is accounted for.
+    """
+
+    x: str
+    y: str
+    regime: str
+    separating_set: tuple[str, ...]
+    p_separation: float | None
+    p_dependence: float | None
 
 
 @dataclass
@@ -112,7 +187,15 @@ class Learned:
     findings : list of TargetFinding
         Declared, detected and off-target actions of each regime.
     conflicts : list of Conflict
-        Edges that colliders direct both ways (left undirected).
+        Edges on which collider decisions disagree, with the direction kept.
+    colliders : dict
+        ``(a, c, b)`` -> `ColliderEvidence` of every collider the tests decided.
+    chains : dict
+        ``(x, y)`` -> `ChainEvidence` of every arrow an experiment on `x` directs.
+    resolution : dict
+        How conflicts were settled: ``stage`` (``closure``, ``unblocked`` or ``repair``),
+        ``accepted`` and ``set_aside`` (collider counts), ``changed`` (edges the repair
+        changed), ``forced`` (colliders the tests rejected that the result holds).
     ambiguous : list of tuple
         Unshielded triples ``(a, c, b)`` whose collider status the rule could not decide.
     p_orientation : dict
@@ -135,6 +218,9 @@ class Learned:
     targets: dict[str, tuple[str, ...]] = field(default_factory=dict)
     findings: list[TargetFinding] = field(default_factory=list)
     conflicts: list[Conflict] = field(default_factory=list)
+    colliders: dict[tuple[str, str, str], ColliderEvidence] = field(default_factory=dict)
+    chains: dict[tuple[str, str], ChainEvidence] = field(default_factory=dict)
+    resolution: dict[str, Any] = field(default_factory=dict)
     ambiguous: list[tuple[str, str, str]] = field(default_factory=list)
     p_orientation: dict[tuple[str, str], float] = field(default_factory=dict)
     tests_per_level: dict[int, int] = field(default_factory=dict)

@@ -27,9 +27,13 @@ triples undecided. Meek's rules are not allowed to orient an edge of an ambiguou
 undecided triple that no collider orients (ambiguous triples must not serve the
 orientation rules [2]_; blocking their edges is the conservative way to say so).
 
-An edge that colliders direct both ways is a *conflict*: it is kept undirected and both
-sides are reported. The p-value behind a collider is the largest p among the separating
-sets that leave ``C`` out (the standard rule: the recorded set's p).
+Each collider keeps its evidence (`ColliderEvidence`): the separating set without ``C``
+of largest p (the standard rule: the recorded set), the test of ``A _||_ B`` given that
+set plus ``C`` (conditioning on a common effect makes its causes dependent [1]_, so this
+p is small for a true collider) and the tests that kept ``A - C`` and ``B - C``. Its
+*strength* is ``-log10`` of the largest p among those that must reject. Colliders that
+contradict each other (an edge directed both ways, a cycle, a collider the tests rejected)
+are settled by strength in `pipeline.graphs.resolve`, not here.
 
 References
 ----------
@@ -54,7 +58,7 @@ import numpy as np
 from pipeline.design import Design
 from pipeline.graphs.pdag import PDAG, InterventionNode
 from pipeline.independence.base import Tester
-from pipeline.learner.evidence import Conflict
+from pipeline.learner.evidence import ColliderEvidence
 from pipeline.learner.skeleton import Progress, Skeleton, run_batched, subsets_up_to
 from pipeline.learner.targets import TargetSearch
 from pipeline.options import COLLIDER_RULES
@@ -67,18 +71,20 @@ Node = Hashable
 
 @dataclass
 class ColliderSearch:
-    """Colliders to orient and the evidence behind them, in graph-node terms.
+    """The decision on every unshielded triple, in graph-node terms.
 
     `colliders` are triples ``(a, c, b)`` of augmented-graph nodes (names, or
-    `InterventionNode`); `keep_undirected` the edges Meek's rules must leave alone;
-    `p_orientation` maps an edge ``(u, v)`` directed by a collider to its p-value.
+    `InterventionNode`) decided colliders, each with its `ColliderEvidence` in
+    `evidence`; `non_colliders` the triples decided otherwise; `ambiguous` the undecided
+    ones (as names), whose edges are in `keep_undirected` unless a collider directs them.
+    The colliders may conflict: `pipeline.graphs.resolve` settles that.
     """
 
     colliders: list[tuple[Node, Node, Node]] = field(default_factory=list)
+    evidence: dict[tuple[Node, Node, Node], ColliderEvidence] = field(default_factory=dict)
+    non_colliders: list[tuple[Node, Node, Node]] = field(default_factory=list)
     keep_undirected: set[frozenset] = field(default_factory=set)
-    conflicts: list[Conflict] = field(default_factory=list)
     ambiguous: list[tuple[str, str, str]] = field(default_factory=list)
-    p_orientation: dict[tuple[str, str], float] = field(default_factory=dict)
     tests_per_level: dict[int, int] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
 
@@ -114,7 +120,8 @@ def find_colliders(
     Parameters
     ----------
     tester : Tester
-        Asked again only by the majority and conservative rules.
+        Asked again by the majority and conservative rules, and for the dependence
+        test of each collider (one test per collider).
     design : Design
         Variables and regimes.
     skeleton : Skeleton
@@ -187,9 +194,9 @@ def find_colliders(
             if not pools[(a, b)] and s is not None:
                 pools[(a, b)] = [(s.cond, s.pvalue)]
 
-    # Step 4: decide each triple.
-    directions: dict[tuple[int, int], list[tuple[tuple[int, int, int], float]]] = {}
+    # Step 4: decide each triple; a collider keeps the best separating set without c.
     undecided: list[tuple[int, int, int]] = []
+    chosen: list[tuple[tuple[int, int, int], tuple[int, ...], float, float]] = []
     for a, c, b in triples:
         pool = pools[(a, b)]
         if not pool:
@@ -203,47 +210,80 @@ def find_colliders(
             verdict = "collider" if inside == 0 else "non" if inside == len(pool) else "ambiguous"
         if verdict == "ambiguous":
             undecided.append((a, c, b))
-        elif verdict == "collider":
-            pc = max(pv for s, pv in pool if c not in s)
-            out.colliders.append((node(a), node(c), node(b)))
-            for end in (a, b):
-                if end < p:
-                    directions.setdefault((end, c), []).append(((a, c, b), pc))
+        elif verdict == "non":
+            out.non_colliders.append((node(a), node(c), node(b)))
+        else:
+            s_best, p_best = max(((s, pv) for s, pv in pool if c not in s),
+                                 key=lambda sp: sp[1])
+            chosen.append(((a, c, b), s_best, p_best, share))
 
-    # Step 5: conflicts, p-values, and the edges of undecided triples.
+    # Step 5: the dependence each collider needs: a and b given the set plus c.
+    p_dep = _dependence_tests(tester, [(a, b, tuple(sorted((*s, c)))) for (a, c, b), s, _, _
+                                       in chosen], p, fregimes, progress=progress,
+                              counts=out.tests_per_level)
+
+    def adjacency_p(end: int, c: int) -> float | None:
+        if end < p:
+            return skeleton.support.get((min(end, c), max(end, c)), (None, 0))[0]
+        return targets.support.get((fregimes[end - p], c), (None, 0))[0]
+
+    for ((a, c, b), s, pv, share), pd in zip(chosen, p_dep, strict=True):
+        t = (node(a), node(c), node(b))
+        out.colliders.append(t)
+        out.evidence[t] = ColliderEvidence(
+            a=names[a], c=names[c], b=str(node(b)),
+            separating_set=tuple(names[i] for i in s), p_separation=pv, p_dependence=pd,
+            p_adjacency=(adjacency_p(a, c), adjacency_p(b, c)), share=share,
+            regime=fregimes[b - p] if b >= p else None)
+
+    # Step 6: the edges of undecided triples stay out of Meek's rules if they can.
     def label(t: tuple[int, int, int]) -> tuple[str, str, str]:
         return tuple(str(node(n)) for n in t)  # type: ignore[return-value]
 
-    for (u, v), why in sorted(directions.items()):
-        back = directions.get((v, u))
-        if back is None:
-            out.p_orientation[(names[u], names[v])] = max(pv for _, pv in why)
-        elif u < v:
-            out.conflicts.append(Conflict(names[u], names[v],
-                                          tuple(label(t) for t, _ in why + back)))
-            out.keep_undirected.add(frozenset((names[u], names[v])))
-            fwd = "; ".join(_arrows(label(t)) for t, _ in why)
-            bwd = "; ".join(_arrows(label(t)) for t, _ in back)
-            out.warnings.append(
-                f"conflict: colliders direct {names[u]} - {names[v]} both ways ({fwd} versus "
-                f"{bwd}); the edge is left undirected")
+    directed = {(end, c) for (a, c, b), *_ in chosen for end in (a, b) if end < p}
     for t in undecided:
         a, c, b = t
         out.ambiguous.append(label(t))
         for end in (a, b):
-            if end < p and (end, c) not in directions and (c, end) not in directions:
+            if end < p and (end, c) not in directed and (c, end) not in directed:
                 out.keep_undirected.add(frozenset((names[end], names[c])))
     if undecided:
         shown = ", ".join(" - ".join(label(t)) for t in undecided[:5])
         more = f" and {len(undecided) - 5} more" if len(undecided) > 5 else ""
         out.warnings.append(
             f"{len(undecided)} unshielded triple(s) could not be decided as collider or not "
-            f"({shown}{more}); Meek's rules leave their edges undirected")
+            f"({shown}{more}); their edges are directed only where a consistent graph "
+            f"requires it")
     return out
 
 
-def _arrows(t: tuple[str, str, str]) -> str:
-    return f"{t[0]} -> {t[1]} <- {t[2]}"
+def _dependence_tests(tester: Tester, rows: list[tuple[int, int, tuple[int, ...]]], p: int,
+                      fregimes: list[str], *, progress: Progress | None,
+                      counts: dict[int, int]) -> list[float | None]:
+    """p of ``a _||_ b | S u {c}`` for each row ``(a, b, S u {c})``, batched by kind and size.
+
+    `b` may be an intervention node (position ``p + r``): then the test is the invariance
+    test of `a` in that regime.
+    """
+    out: list[float | None] = [None] * len(rows)
+    groups: dict[tuple[str, int], list[int]] = {}
+    for n, (_a, b, cond) in enumerate(rows):
+        kind = "ci" if b < p else fregimes[b - p]
+        groups.setdefault((kind, len(cond)), []).append(n)
+    for (kind, size), idx in sorted(groups.items(), key=lambda kv: (kv[0][1], kv[0][0])):
+        x = np.asarray([rows[n][0] for n in idx], dtype=np.intp)
+        y = np.asarray([rows[n][1] for n in idx], dtype=np.intp)
+        cond = np.asarray([rows[n][2] for n in idx], dtype=np.intp).reshape(len(idx), size)
+        if kind == "ci":
+            res = run_batched(lambda a, b, c: tester.ci(a, b, c), x, y, cond,
+                              label=f"orientation, level {size}", progress=progress)
+        else:
+            res = run_batched(lambda a, _b, c, k=kind: tester.invariance(k, a, c), x, x, cond,
+                              label=f"orientation, level {size}", progress=progress)
+        counts[size] = counts.get(size, 0) + len(idx)
+        for n, pv in zip(idx, np.asarray(res.pvalue, dtype=float).tolist(), strict=True):
+            out[n] = None if pv != pv else pv
+    return out
 
 
 def _separating_subsets(tester: Tester, pairs: list[tuple[int, int]], adj: list[set[int]],

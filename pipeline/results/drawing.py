@@ -11,8 +11,9 @@ Undirected edges get a direction for the layout only, from the earlier node of a
 topological order of the directed edges (ties by the order of `nodes`); they are drawn
 without heads. Directed edges are coloured by the rule that set their direction
 (Okabe-Ito colours, which stay distinct under the common colour-vision deficiencies [3]_),
-conflicting edges are dashed, and every edge carries an SVG ``<title>`` (a tooltip) with
-its evidence. The output has no script and no external resource.
+conflicting edges are dashed (with a head when the result directs them), and every edge
+carries an SVG ``<title>`` (a tooltip) with its evidence. The output has no script and no
+external resource.
 
 >>> from pipeline.results.schema import EdgeRecord
 >>> svg = graph_svg(["A", "B"], [EdgeRecord("A", "B", "directed", "intervention")])
@@ -59,7 +60,7 @@ COLOURS = {
 }
 _LEGEND = (("intervention", "intervention", True), ("collider", "collider", True),
            ("meek", "Meek rule", True), ("other", "directed, other", True),
-           ("undirected", "undirected", False), ("conflict", "conflict", False))
+           ("undirected", "undirected", False), ("conflict", "conflict", True))
 
 
 # -- the public functions ------------------------------------------------------------------------
@@ -180,7 +181,10 @@ def _tooltip(e: EdgeRecord) -> str:
     arrow = "->" if e.orientation == "directed" else "--"
     text = (f"{e.source} {arrow} {e.target}; rule {e.rule}; via {', '.join(e.via) or '-'}; "
             f"p_adjacency {_fmt_p(e.p_adjacency)}")
-    return text + ("; conflicting evidence" if e.conflict else "")
+    if e.strength is not None:
+        text += f"; strength {e.strength:.1f}"
+    text += "; conflicting evidence" if e.conflict else ""
+    return text + (f". {e.explanation}" if e.explanation else "")
 
 
 def _ports(chains: dict[tuple[str, str], list[str | int]], xs: dict[str | int, float],
@@ -301,7 +305,7 @@ def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[s
             pts.reverse()
         kind = _kind(e)
         d = "M" + " L".join(f"{px:.1f},{py:.1f}" for px, py in pts)
-        head = e.orientation == "directed" and kind != "conflict"
+        head = e.orientation == "directed"
         out.append(f"<path class=\"og-edge og-{kind}\" d=\"{d}\" fill=\"none\" "
                    f"stroke-linejoin=\"round\" {_stroke(kind, head)}>"
                    f"<title>{_e(_tooltip(e))}</title></path>")

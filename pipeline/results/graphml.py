@@ -2,8 +2,8 @@
 
 Each edge of the result appears once: a directed edge from its source to its target, an
 undirected edge from the node that comes first, marked ``orientation = undirected``.
-Edge data: orientation, rule, via (``;``-joined), conflict, p_adjacency, p_orientation
-(omitted when absent). Node data: kind (``variable``).
+Edge data: orientation, rule, via (``;``-joined), conflict, p_adjacency, p_orientation,
+strength, explanation (numbers omitted when absent). Node data: kind (``variable``).
 """
 
 from __future__ import annotations
@@ -23,6 +23,8 @@ _KEYS = (  # id, owner, name, type
     ("d4", "edge", "conflict", "boolean"),
     ("d5", "edge", "p_adjacency", "double"),
     ("d6", "edge", "p_orientation", "double"),
+    ("d7", "edge", "strength", "double"),
+    ("d8", "edge", "explanation", "string"),
 )
 
 
@@ -47,6 +49,10 @@ def graphml_text(nodes: Sequence[str], edges: Iterable[EdgeRecord]) -> str:
             data.append(f'<data key="d5">{float(e.p_adjacency)!r}</data>')
         if e.p_orientation is not None:
             data.append(f'<data key="d6">{float(e.p_orientation)!r}</data>')
+        if e.strength is not None:
+            data.append(f'<data key="d7">{float(e.strength)!r}</data>')
+        if e.explanation:
+            data.append(f'<data key="d8">{escape(e.explanation)}</data>')
         out.append(f'    <edge source={quoteattr(str(e.source))} '
                    f'target={quoteattr(str(e.target))}>{"".join(data)}</edge>')
     out += ["  </graph>", "</graphml>", ""]

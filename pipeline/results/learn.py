@@ -137,7 +137,8 @@ class LearnResult:
         for e in self.edge_records:
             attrs = {"orientation": e.orientation, "rule": e.rule, "via": list(e.via),
                      "p_adjacency": e.p_adjacency, "p_orientation": e.p_orientation,
-                     "conflict": e.conflict, "notes": list(e.notes)}
+                     "conflict": e.conflict, "notes": list(e.notes), "strength": e.strength,
+                     "explanation": e.explanation}
             d.add_edge(e.source, e.target, **attrs)
             if e.orientation == "undirected":
                 d.add_edge(e.target, e.source, **attrs)
@@ -180,16 +181,21 @@ class LearnResult:
         shown = edges if max_rows is None else edges[:max_rows]
         t = Table(title="Edges" + (f" (first {max_rows} of {len(edges)}; all in edges.csv)"
                                    if len(shown) < len(edges) else ""))
-        for col in ("edge", "rule", "via", "p adjacency", "p orientation"):
-            t.add_column(col, justify="right" if col.startswith("p ") else "left")
+        for col in ("edge", "rule", "via", "p adjacency", "strength"):
+            t.add_column(col, justify="right" if col in ("p adjacency", "strength") else "left")
         for e in shown:
             arrow = "->" if e.orientation == "directed" else "--"
             name = escape(f"{e.source} {arrow} {e.target}")
             if e.conflict:
                 name += " [red](conflict)[/red]"
             t.add_row(name, escape(e.rule), escape(", ".join(e.via) or "-"),
-                      format_p(e.p_adjacency), format_p(e.p_orientation))
+                      format_p(e.p_adjacency),
+                      "-" if e.strength is None else f"{e.strength:.1f}")
         console.print(t)
+        if any(e.orientation == "directed" for e in shown):
+            console.print("strength: -log10 of the weakest test behind the direction (2: "
+                          "p = 0.01); why each edge has its direction: edges.csv "
+                          "(explanation) and report.html", highlight=False)
         t = Table(title="Regimes: declared and detected targets")
         for col in ("regime", "samples", "declared", "known", "detected"):
             t.add_column(col, justify="right" if col == "samples" else "left")
@@ -206,8 +212,8 @@ class LearnResult:
                               highlight=False)
         for c in self.learned.conflicts:
             console.print(f"[yellow]conflict[/yellow]: {escape(c.source)} -- "
-                          f"{escape(c.target)} (colliders direct it both ways; left "
-                          f"undirected)", highlight=False)
+                          f"{escape(c.target)}: the result keeps {escape(c.kept)}; "
+                          + escape("; ".join(c.reasons)), highlight=False)
         levels = ", ".join(f"{k}: {v}" for k, v in sorted(self.learned.tests_per_level.items()))
         console.print(f"tests per conditioning-set size: {levels}", highlight=False)
         if self.run.get("computed") is not None:

@@ -44,6 +44,7 @@ th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 .bad{background:#fde8e8;border-left:4px solid #c03030;padding:.4em .8em}
 .caution{background:#eef3fb;border-left:4px solid #3b6bb0;padding:.4em .8em;margin:.3em 0}
 .small{color:#555;font-size:.88em}
+code{font-size:.92em}
 """
 
 
@@ -87,6 +88,26 @@ def _response(check: CheckResult) -> str:
     return _table(["regime"] + list(resp.variables), rows)
 
 
+def _edge_text(e) -> str:
+    return f"{e.source} {'->' if e.orientation == 'directed' else '-'} {e.target}"
+
+
+def _provenance(p: dict[str, Any]) -> str:
+    """A small block: inputs (size, hash), version, date, command line."""
+    if not p:
+        return ""
+    inputs = "".join(
+        f"<li>{_e(i.get('role', ''))}: <code>{_e(i.get('path', ''))}</code>, "
+        f"{_e(format(int(i.get('bytes', 0)), ','))} bytes, sha256 "
+        f"<code>{_e(str(i.get('sha256', ''))[:16])}&hellip;</code></li>"
+        for i in p.get("inputs", []))
+    return ("<div class=\"small\"><b>Provenance</b>: "
+            f"{_e(p.get('tool', 'orienteer'))} {_e(p.get('version', ''))}, run "
+            f"{_e(p.get('date', ''))}, command <code>{_e(p.get('command', ''))}</code> "
+            f"(Python {_e(p.get('python', ''))}, numpy {_e(p.get('numpy', ''))})"
+            + (f"<ul>{inputs}</ul>" if inputs else "") + "</div>")
+
+
 def render_report(record: ResultRecord, check: CheckResult | None = None,
                   sections: Sequence[tuple[str, str]] = ()) -> str:
     """The HTML page of a learn result (a string; the caller writes it).
@@ -114,6 +135,14 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
     if not record.valid:
         parts.append("<p class=\"bad\">The learned graph is not a valid essential graph: "
                      + _e("; ".join(record.problems)) + "</p>")
+    conflicts = [e for e in record.edges if e.conflict]
+    if conflicts:
+        parts.append(f"<p class=\"warn\">The tests disagree about {len(conflicts)} edge(s) "
+                     f"({_e(', '.join(_edge_text(e) for e in conflicts[:8]))}"
+                     f"{', ...' if len(conflicts) > 8 else ''}). The graph shows one consistent "
+                     f"answer that keeps the stronger evidence; these edges are marked "
+                     f"<i>conflict</i> and their notes say what was set aside.</p>")
+    parts.append(_provenance(record.provenance))
 
     # drawing
     parts.append("<h2>Graph</h2>")
@@ -123,16 +152,21 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
     rows = []
     for e in record.edges:
         arrow = "&rarr;" if e.orientation == "directed" else "&mdash;"
-        rows.append([f"{_e(e.source)} {arrow} {_e(e.target)}", _e(e.orientation), _e(e.rule),
-                     _e(", ".join(e.via)) or "&ndash;", _p(e.p_adjacency), _p(e.p_orientation),
-                     "yes" if e.conflict else "", _e("; ".join(e.notes))])
+        why = e.explanation.split(": ", 1)[-1] if e.explanation else ""
+        rows.append([f"{_e(e.source)} {arrow} {_e(e.target)}", _e(e.rule),
+                     _e(", ".join(e.via)) or "&ndash;", _p(e.p_adjacency),
+                     "&ndash;" if e.strength is None else f"{e.strength:.1f}",
+                     "<b>yes</b>" if e.conflict else "", _e(why), _e("; ".join(e.notes))])
     parts.append("<h2>Edges</h2>")
-    parts.append(_table(["edge", "orientation", "rule", "via", "p adjacency", "p orientation",
-                         "conflict", "notes"], rows, numeric={4, 5}) if rows
+    parts.append(_table(["edge", "rule", "via", "p adjacency", "strength", "conflict",
+                         "why", "notes"], rows, numeric={3, 4}) if rows
                  else "<p>No edge was found.</p>")
     parts.append("<p class=\"small\">p adjacency: the largest p-value of the tests that kept "
-                 "the edge. p orientation: the p-value of the separating test behind the "
-                 "collider that oriented it.</p>")
+                 "the edge. strength: how firmly the data support the direction, as "
+                 "&minus;log10 of the weakest test that had to find a dependence for it (2 "
+                 "means p = 0.01; 0: no support, the direction only keeps the graph "
+                 "consistent); for a direction that follows from other arrows, the weakest of "
+                 "those. The full chain of tests behind each arrow is in result.json.</p>")
 
     # regimes and targets
     rows = [[_e(r.name), str(r.samples), _e(";".join(r.targets)) or "&ndash;",

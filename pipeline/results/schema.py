@@ -23,7 +23,16 @@ RULES = ("intervention", "collider", "meek-1", "meek-2", "meek-3", "meek-4", "no
 
 @dataclass
 class EdgeRecord:
-    """One edge of the result. For an undirected edge `source` comes first in ``nodes``."""
+    """One edge of the result. For an undirected edge `source` comes first in ``nodes``.
+
+    `strength` is ``-log10`` of the weakest test that had to find a dependence for the
+    direction to stand (see `pipeline.results.explain`; None for an undirected edge),
+    `chain` the steps from the tests to the direction (each with its rule, the tests and
+    their p-values, and a sentence), `explanation` one sentence in plain words, and
+    `conflict` marks an edge on which the tests disagree (the decisions set aside are in
+    `notes`). `p_orientation` stays for the contract: the p of the separating test behind
+    the collider that directed the edge.
+    """
 
     source: str
     target: str
@@ -36,6 +45,9 @@ class EdgeRecord:
     bootstrap_orientation: float | None = None
     conflict: bool = False
     notes: list[str] = field(default_factory=list)
+    strength: float | None = None
+    explanation: str = ""
+    chain: list[dict[str, Any]] = field(default_factory=list)
 
 
 @dataclass

@@ -1,7 +1,9 @@
 """Scores of a learned graph against a truth (the result of ``compare``).
 
 `Scores` carries the structural Hamming distance and the adjacency and orientation
-precision and recall with the counts behind them; it prints them as a table. The
+precision and recall with the counts behind them; it prints them as a table.
+`Comparison` holds the scores against three references (the true DAG, its essential
+graph under the true targets, and under the targets the result was learned with). The
 computation is `pipeline.analyses.scoring`.
 """
 
@@ -15,7 +17,7 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
-__all__ = ["Scores"]
+__all__ = ["Scores", "Comparison"]
 
 
 @dataclass(frozen=True)
@@ -80,3 +82,76 @@ class Scores:
         t.add_row("orientation recall", f(self.orientation_recall),
                   f"{self.shared_directed} / {self.true_directed}")
         console.print(t)
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """A result scored against fixed references.
+
+    Attributes
+    ----------
+    dag : Scores
+        Against the true DAG itself: every true edge counts as directed, so orientation
+        recall is the share of all true arrows the result recovers.
+    true_design : Scores
+        Against the interventional essential graph of the true DAG under the true
+        targets (`true_targets`) or, without them, the declared targets: the same
+        yardstick for every run on these experiments, whatever its settings.
+    design : Scores
+        Against the essential graph under the targets the result was learned with
+        (declared, or detected where learned): the scores ``compare`` gave before.
+    true_targets : bool
+        Whether the true targets were given (else the declared ones stand in).
+    """
+
+    dag: Scores
+    true_design: Scores
+    design: Scores
+    true_targets: bool = False
+
+    def to_dict(self) -> dict[str, Any]:
+        """The scores against the result's own design at the top level (as before), plus
+        ``against_dag`` and ``against_true_design``."""
+        return {**self.design.to_dict(), "against_dag": self.dag.to_dict(),
+                "against_true_design": self.true_design.to_dict(),
+                "true_design_targets": "true" if self.true_targets else "declared"}
+
+    def summary(self, width: int = 100) -> str:
+        """The same table as `print`, as plain text."""
+        console = Console(file=io.StringIO(), width=width, color_system=None,
+                          force_terminal=False)
+        self.print(console)
+        return console.file.getvalue()
+
+    def print(self, console: Console, title: str = "") -> None:
+        """One table: a column per reference."""
+        def f(v: float | None) -> str:
+            return "n/a" if v is None else f"{v:.3f}"
+
+        which = "true targets" if self.true_targets else "declared targets"
+        cols = [("true DAG", self.dag), (which, self.true_design)]
+        if self.design != self.true_design:
+            cols.append(("result's targets", self.design))
+        t = Table(title=escape("Scores" + (f": {title}" if title else "")))
+        t.add_column("score")
+        for name, _ in cols:
+            t.add_column(escape(name), justify="right")
+        t.add_row("structural Hamming distance", *(str(s.shd) for _, s in cols))
+        rows = (("adjacency precision", "adjacency_precision", "shared_adjacencies",
+                 "learned_edges"),
+                ("adjacency recall", "adjacency_recall", "shared_adjacencies", "true_edges"),
+                ("orientation precision", "orientation_precision", "shared_directed",
+                 "learned_directed"),
+                ("orientation recall", "orientation_recall", "shared_directed",
+                 "true_directed"))
+        for label, frac, num, den in rows:
+            t.add_row(label, *(f"{f(getattr(s, frac))} ({getattr(s, num)}/{getattr(s, den)})"
+                               for _, s in cols))
+        console.print(t)
+        console.print("true DAG: every true edge counts as directed. "
+                      f"{which}: the true essential graph under the {which}, where edges "
+                      "that no experiment could orient count as undirected"
+                      + ("" if self.true_targets else
+                         " (give --truth-regimes for the targets that really acted)")
+                      + (". result's targets: the same under the targets the result was "
+                         "learned with" if len(cols) > 2 else ""), highlight=False)

@@ -3,8 +3,10 @@
 `edge_records` turns the learner's output into one `EdgeRecord` per edge of the learned
 graph (the ``edges`` of ``result.json``): its orientation, the rule and the regimes or
 nodes behind its direction, the largest p-value of the tests that kept it, the p-value
-behind its collider, and notes. `edges_frame` and `removed_frame` give the same as
-pandas tables; `to_csv` writes them with list cells joined by ``;``.
+behind its collider, the strength and chain of the evidence with a one-sentence
+explanation (`pipeline.results.explain`), conflicts, and notes. `edges_frame` and
+`removed_frame` give the same as pandas tables; `to_csv` writes them with list cells
+joined by ``;``.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ import pandas as pd
 from pipeline.design import Design
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.learner.evidence import Learned
+from pipeline.results.explain import explain_edges
 from pipeline.results.schema import EdgeRecord
 
 __all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "removed_frame",
@@ -27,7 +30,7 @@ __all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "re
 
 EDGE_COLUMNS = ("source", "target", "orientation", "rule", "via", "p_adjacency",
                 "p_orientation", "conflict", "bootstrap_adjacency", "bootstrap_orientation",
-                "notes")
+                "notes", "strength", "explanation")
 REMOVED_COLUMNS = ("x", "y", "separating_set", "pvalue", "statistic", "level", "regime",
                    "notes")
 
@@ -42,11 +45,6 @@ def _num(v: float | None) -> float | None:
 
 def _via_name(n: object) -> str:
     return n.regime if isinstance(n, InterventionNode) else str(n)
-
-
-def _collider_text(t: tuple[str, str, str]) -> str:
-    a, c, b = t
-    return f"{a} -> {c} <- {b}"
 
 
 def edge_records(learned: Learned, design: Design,
@@ -71,6 +69,9 @@ def edge_records(learned: Learned, design: Design,
     order = {v: i for i, v in enumerate(design.variables)}
     kept = {frozenset((k.x, k.y)): k for k in learned.kept if k.regime is None}
     conflicts = {frozenset((c.source, c.target)): c for c in learned.conflicts}
+    changed = {frozenset(e) for e in learned.resolution.get("changed", [])}
+    stage = learned.resolution.get("stage", "closure")
+    why = explain_edges(learned, float(learned.settings.get("alpha", 0.01)))
     left_out: dict[str, list[str]] = {}
     for regime, names in (constant or {}).items():
         for v in names:
@@ -88,28 +89,48 @@ def edge_records(learned: Learned, design: Design,
                              f"left out of the tests of this edge")
         c = conflicts.get(frozenset((u, v)))
         if c is not None:
-            notes.append("colliders direct it both ways: "
-                         + "; ".join(_collider_text(t) for t in c.colliders))
+            notes.append(f"conflict: the result keeps {c.kept}")
+            notes.extend(c.reasons)
+        if frozenset((u, v)) in changed:
+            notes.append("the tests alone left this edge open: its direction was set so that "
+                         "the graph stays consistent" if stage == "unblocked" else
+                         "changed by the repair: no graph fits every test decision, this one "
+                         "keeps the strongest evidence")
         return (_num(k.max_pvalue) if k is not None else None), notes
 
     # directed edges, by variable order of the source then the target
     for u, v in sorted(g.directed_edges(), key=lambda e: (order[e[0]], order[e[1]])):
         reason = learned.essential.reasons.get((u, v))
         p_adj, notes = evidence(u, v)
+        ex = why[(str(u), str(v))]
         out.append(EdgeRecord(
             source=str(u), target=str(v), orientation="directed",
             rule=reason.rule if reason is not None else "none",
             via=[_via_name(n) for n in (reason.via if reason is not None else ())],
             p_adjacency=p_adj, p_orientation=_num(learned.p_orientation.get((u, v))),
-            conflict=False, notes=notes))
+            conflict=frozenset((u, v)) in conflicts, notes=notes,
+            strength=None if ex.strength is None else round(ex.strength, 2),
+            explanation=ex.sentence, chain=_finite(ex.chain)))
     # undirected edges, the earlier node first
     for u, v in sorted((tuple(sorted(e, key=order.__getitem__)) for e in g.undirected_edges()),
                        key=lambda e: (order[e[0]], order[e[1]])):
         p_adj, notes = evidence(u, v)
+        ex = why.get((str(u), str(v))) or why[(str(v), str(u))]
         out.append(EdgeRecord(
             source=str(u), target=str(v), orientation="undirected", rule="none", via=[],
             p_adjacency=p_adj, p_orientation=None,
-            conflict=frozenset((u, v)) in conflicts, notes=notes))
+            conflict=frozenset((u, v)) in conflicts, notes=notes,
+            explanation=ex.sentence))
+    return out
+
+
+def _finite(chain: list[dict]) -> list[dict]:
+    """The chain with every p-value a finite float or None (JSON has no NaN)."""
+    out = []
+    for step in chain:
+        step = dict(step)
+        step["tests"] = [{**t, "p": _num(t.get("p"))} for t in step.get("tests", [])]
+        out.append(step)
     return out
 
 
