@@ -114,17 +114,29 @@ def test_drop_missing_drops_and_counts(tmp_path):
     _check_moments(intake, frame.drop(index=[3, 5, 7]), ("X1", "X2", "X3", "X4"))
 
 
-def test_rank_statistics_are_those_of_pooled_normal_scores(tmp_path):
+def test_rank_statistics_are_within_regime(tmp_path):
     frame = _table()
     frame["X4"] = np.exp(frame["X4"] / 3)  # a monotone distortion
     paths, reg = _files(tmp_path, {"d.csv": frame})
     intake = read_inputs(paths, reg, test="rank", chunk_rows=9)
     variables = ["X1", "X2", "X3", "X4"]
-    raw = frame[variables].to_numpy(float)
-    # Harris & Drton (2013): Phi^-1(rank / (n + 1)) of the pooled data, via scipy
-    scores = stats.norm.ppf(stats.rankdata(raw, axis=0) / (len(raw) + 1))
-    _check_moments(intake, pd.DataFrame(scores, columns=variables).assign(
-        regime=frame["regime"].to_numpy()), variables)
+    m = intake.moments
+    for k, name in enumerate(m.regimes):
+        rows = frame.loc[frame["regime"] == name, variables].to_numpy(float)
+        # CI tests: Spearman's rho within the regime (scipy.stats.spearmanr), turned into a
+        # Pearson correlation by 2 sin(pi rho / 6) (Kruskal 1958; Harris & Drton 2013)
+        rho = stats.spearmanr(rows).statistic
+        np.testing.assert_allclose(m.ci_scatter[k] / (len(rows) - 1),
+                                   2 * np.sin(np.pi * rho / 6), atol=1e-12)
+    # invariance tests: normal scores in the reference's distribution; the reference's own
+    # rows get Phi^-1(rank / (n_ref + 1)) of their ranks among themselves (scipy)
+    ref = frame.loc[frame["regime"] == "ctrl", variables].to_numpy(float)
+    scores = stats.norm.ppf(stats.rankdata(ref, axis=0) / (len(ref) + 1))
+    k = m.regimes.index("ctrl")
+    np.testing.assert_allclose(m.mean[k], scores.mean(axis=0), atol=1e-12)
+    dev = scores - scores.mean(axis=0)
+    np.testing.assert_allclose(m.scatter[k], dev.T @ dev, atol=1e-9)
+    assert m.ci_variance == pytest.approx((np.pi / 3) ** 2)  # delta method at rho = 0
 
 
 def test_warnings_few_samples_and_knockout(tmp_path):

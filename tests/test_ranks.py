@@ -37,3 +37,35 @@ def test_edge_cases():
         normal_scores(np.array([[1.0], [np.nan]]))
     with pytest.raises(ValueError):
         normal_scores(np.zeros((2, 2, 2)))
+
+
+def test_rank_correlations_match_scipy_spearman():
+    # Spearman's rho (scipy.stats.spearmanr), turned into 2 sin(pi rho / 6) (Kruskal 1958)
+    from scipy import stats
+
+    from pipeline.stats.ranks import rank_correlations
+
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=(80, 4)) @ rng.normal(size=(4, 4))
+    x[:, 2] = np.round(x[:, 2])  # ties
+    rho = stats.spearmanr(x).statistic
+    np.testing.assert_allclose(rank_correlations(x), 2 * np.sin(np.pi * rho / 6), atol=1e-12)
+    x[:, 1] = 5.0  # a constant column: zero row and column
+    out = rank_correlations(x)
+    assert out[1].tolist() == [0.0] * 4 and out[:, 1].tolist() == [0.0] * 4
+
+
+def test_anchored_scores_keep_order_and_the_reference_scores():
+    from pipeline.stats.ranks import anchored_normal_scores
+
+    rng = np.random.default_rng(4)
+    ref = rng.exponential(size=(200, 2))
+    values = np.vstack([ref, rng.exponential(size=(50, 2)) * 3 + 1.0])
+    out = anchored_normal_scores(ref, values)
+    # the reference's rows get their own normal scores (scipy.stats, via normal_scores)
+    np.testing.assert_allclose(out[:200], normal_scores(ref), atol=1e-12)
+    # one increasing map per column: order preserved, also beyond the reference's range
+    for j in range(2):
+        order = np.argsort(values[:, j], kind="stable")
+        assert np.all(np.diff(out[order, j]) >= -1e-12)
+    assert out[:, 0].max() > normal_scores(ref)[:, 0].max()  # extended past the range

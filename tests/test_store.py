@@ -65,7 +65,19 @@ def test_inputs_round_trip(tmp_path):
     np.testing.assert_array_equal(got.moments.scatter, m.scatter)
     np.testing.assert_array_equal(got.moments.mean, m.mean)
     np.testing.assert_array_equal(got.moments.count, m.count)
+    np.testing.assert_array_equal(got.moments.m3, m.m3)
+    np.testing.assert_array_equal(got.moments.m4, m.m4)
+    assert got.moments.ci_scatter is None and got.moments.ci_variance == 1.0
     assert got.moments.variables == m.variables and got.moments.regimes == m.regimes
+    # the rank variant's extra matrices travel too
+    from dataclasses import replace
+
+    ranked = replace(m, ci_scatter=m.scatter * 0.5, ci_variance=1.25)
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        store.put_inputs("fp2", _design(), ranked)
+        back = store.get_inputs("fp2").moments
+    np.testing.assert_array_equal(back.ci_scatter, ranked.ci_scatter)
+    assert back.ci_variance == 1.25
 
 
 def test_cached_ci_computes_only_missing(tmp_path):

@@ -49,6 +49,13 @@ CREATE TABLE IF NOT EXISTS inputs (
     mean        BLOB NOT NULL,
     scatter     BLOB NOT NULL
 );
+CREATE TABLE IF NOT EXISTS moments_extra (
+    fingerprint TEXT PRIMARY KEY,
+    m3          BLOB,
+    m4          BLOB,
+    ci_scatter  BLOB,
+    ci_variance REAL NOT NULL
+);
 CREATE TABLE IF NOT EXISTS fingerprints (
     id          INTEGER PRIMARY KEY,
     fingerprint TEXT NOT NULL UNIQUE
@@ -96,6 +103,10 @@ def _to_blob(a: np.ndarray) -> bytes:
 
 def _from_blob(b: bytes) -> np.ndarray:
     return np.load(io.BytesIO(b), allow_pickle=False)
+
+
+def _maybe_blob(a: np.ndarray | None) -> bytes | None:
+    return None if a is None else _to_blob(np.asarray(a, dtype=float))
 
 
 def _design_to_json(design: Design) -> str:
@@ -194,8 +205,13 @@ class TestStore:
                _to_blob(np.asarray(moments.count, dtype=np.int64)),
                _to_blob(np.asarray(moments.mean, dtype=float)),
                _to_blob(np.asarray(moments.scatter, dtype=float)))
-        self._write(lambda c: c.execute(
-            "INSERT OR IGNORE INTO inputs VALUES (?,?,?,?,?,?,?,?,?,?)", row))
+        extra = (fingerprint, _maybe_blob(moments.m3), _maybe_blob(moments.m4),
+                 _maybe_blob(moments.ci_scatter), float(moments.ci_variance))
+
+        def put(c: sqlite3.Connection) -> None:
+            c.execute("INSERT OR IGNORE INTO inputs VALUES (?,?,?,?,?,?,?,?,?,?)", row)
+            c.execute("INSERT OR IGNORE INTO moments_extra VALUES (?,?,?,?,?)", extra)
+        self._write(put)
 
     def get_inputs(self, fingerprint: str) -> StoredInputs | None:
         """The stored inputs of `fingerprint`, or None."""
@@ -205,8 +221,13 @@ class TestStore:
         if row is None:
             return None
         design = _design_from_json(row[0])
+        extra = self._con.execute(
+            "SELECT m3, m4, ci_scatter, ci_variance FROM moments_extra WHERE fingerprint = ?",
+            (fingerprint,)).fetchone() or (None, None, None, 1.0)
         moments = Moments(tuple(json.loads(row[3])), tuple(json.loads(row[4])),
-                          _from_blob(row[5]), _from_blob(row[6]), _from_blob(row[7]))
+                          _from_blob(row[5]), _from_blob(row[6]), _from_blob(row[7]),
+                          *(None if b is None else _from_blob(b) for b in extra[:3]),
+                          float(extra[3]))
         return StoredInputs(fingerprint, design, moments, list(json.loads(row[1])), int(row[2]))
 
     def fingerprints(self) -> list[str]:

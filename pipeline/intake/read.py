@@ -7,9 +7,11 @@ of rows), and checks the result (:mod:`pipeline.intake.checks`). Every problem o
 input raises :class:`~pipeline.errors.InputError` naming the file, line, column, regime
 or variable at fault.
 
-With ``test="rank"`` the statistics are those of the normal scores of the pooled ranks
-(Harris & Drton 2013); ranks need all rows at once, so that path holds the whole table in
-memory (8 bytes per cell). The Gaussian path streams.
+With ``test="rank"`` the statistics are those of the rank variant (Harris & Drton 2013;
+`pipeline.stats.ranks.rank_moments`: normal scores anchored to the reference for the
+invariance tests, rank correlations within each regime for the CI tests); ranks need all
+rows at once, so that path holds the whole table in memory (8 bytes per cell). The
+Gaussian path streams.
 
 References
 ----------
@@ -47,7 +49,7 @@ from pipeline.options import TESTS
 from pipeline.stats.accumulate import MomentAccumulator
 from pipeline.stats.fingerprint import _fingerprint, statistics_options
 from pipeline.stats.moments import Moments
-from pipeline.stats.ranks import normal_scores
+from pipeline.stats.ranks import rank_moments
 
 __all__ = ["Intake", "read_inputs", "TESTS"]
 
@@ -198,7 +200,8 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
                 reference=reference, test=test, **_reading_keys(reading)), stop)
         # 2. one streaming pass over every file
         state = _Pass(variables, names, index, drop_missing, keep_rows=test == "rank",
-                      by_name=by_name)
+                      by_name=by_name,
+                      reference=[k for k, r in enumerate(regs) if r.reference])
         bar = _progress(progress)
         if bar is not None:
             bar.start()
@@ -269,8 +272,10 @@ def _check_stems(paths: Sequence[Path]) -> None:
 class _Pass:
     """State of the streaming pass: accumulator, missing-value counts, kept rows."""
 
-    def __init__(self, variables, names, index, drop_missing, keep_rows, by_name=False):
+    def __init__(self, variables, names, index, drop_missing, keep_rows, by_name=False,
+                 reference=()):
         self.by_name = by_name
+        self.reference = list(reference)
         self.variables, self.names, self.index = variables, names, index
         self.drop_missing = drop_missing
         self.acc = MomentAccumulator(variables, names)
@@ -342,5 +347,5 @@ class _Pass:
             values = np.concatenate([v for _, v in self.kept]) if self.kept \
                 else np.zeros((0, p))
             self.kept = []
-            self.acc.update(codes, normal_scores(values))
+            return rank_moments(codes, values, self.variables, self.names, self.reference)
         return self.acc.result()

@@ -24,6 +24,9 @@ from pipeline.errors import InputError
 __all__ = ["fingerprint_inputs", "statistics_options"]
 
 _FORMAT = b"orienteer.fingerprint/1"
+#: The version of the statistics and tests kept under a fingerprint: raised whenever a
+#: test's definition changes, so that a store never answers with results of an older one.
+METHODS_VERSION = 2
 _BLOCK = 1 << 20
 
 
@@ -33,8 +36,9 @@ def statistics_options(*, regime_column: str = "regime", ignore_columns: Sequenc
                        sheet: str | None = None, genes: Sequence[str] | None = None) -> dict:
     """The options that change the statistics, normalized (ignored columns sorted).
 
-    The reading options enter only when they differ from their defaults, so that files
-    read as before keep their fingerprint. `genes` are the chosen names, in order.
+    The reading options enter only when they differ from their defaults. `genes` are the
+    chosen names, in order. `METHODS_VERSION` always enters: results of older tests are
+    never reused.
     """
     if isinstance(ignore_columns, str):
         ignore_columns = [c for c in ignore_columns.split(",")]
@@ -43,7 +47,7 @@ def statistics_options(*, regime_column: str = "regime", ignore_columns: Sequenc
                                          if str(c).strip()}),
                "drop_missing": bool(drop_missing),
                "reference": None if reference is None else str(reference),
-               "test": str(test)}
+               "test": str(test), "methods": METHODS_VERSION}
     if decimal is not None and decimal != ".":
         options["decimal"] = str(decimal)
     if regime_from is not None and regime_from != "column":

@@ -1,10 +1,23 @@
-"""Normal scores: the rank-based transform behind ``--test rank``.
+"""Rank statistics behind ``--test rank``: a variant for data far from Gaussian.
 
-Each column is replaced by ``Phi^{-1}(r / (n + 1))`` where ``r`` is the rank of the value
-among the n pooled rows (ties get their average rank) and ``Phi^{-1}`` is the standard
-normal quantile. Gaussian tests on these scores are the rank-based variant of Harris &
-Drton (2013): they keep their level for any monotone transform of Gaussian data
-(a nonparanormal model).
+The rank variant of the tests keeps its level for any monotone transform of Gaussian data
+(a nonparanormal model; Harris & Drton 2013). Ranks must never be pooled across regimes:
+regimes with different parameters make the pooled ranks a non-linear function of the
+values inside each regime. So the two kinds of test get two rank statistics:
+
+- conditional independence: per regime, Spearman's rank correlation ``rho`` of every
+  pair, computed from the ranks *within* the regime, turned into a Pearson correlation by
+  ``2 sin(pi rho / 6)`` (exact for Gaussian data; Kruskal 1958, Harris & Drton 2013)
+  (`rank_correlations`). The Fisher z test reads these; near independence
+  ``var(2 sin(pi rho / 6)) ~ (pi / 3)^2 var(rho)`` (the delta method), so its weights are
+  divided by `RANK_VARIANCE`;
+- invariance: every value is replaced by its normal score *in the reference's
+  distribution*, ``Phi^{-1}(F_ref(x))`` with ``F_ref`` the reference's empirical
+  distribution function (interpolated, and extended linearly beyond the reference's
+  range) (`anchored_normal_scores`), one monotone map per variable for all regimes, so a
+  shift of a regime stays a shift.
+
+`normal_scores` (pooled ranks of one sample) is the transform of a single regime.
 
 >>> import numpy as np
 >>> normal_scores(np.array([[3.0], [1.0], [2.0]])).round(3).ravel().tolist()
@@ -14,6 +27,8 @@ References
 ----------
 1. N. Harris, M. Drton (2013). PC algorithm for nonparanormal graphical models.
    Journal of Machine Learning Research 14, 3365-3383.
+2. W. H. Kruskal (1958). Ordinal measures of association. Journal of the American
+   Statistical Association 53, 814-861.
 """
 
 from __future__ import annotations
@@ -21,7 +36,13 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import ndtri
 
-__all__ = ["normal_scores", "average_ranks"]
+__all__ = ["RANK_VARIANCE", "normal_scores", "average_ranks", "rank_correlations",
+           "anchored_normal_scores", "rank_moments"]
+
+#: Null variance of ``sqrt(n - |S| - 3) atanh(r)`` for ``r = 2 sin(pi rho / 6)``: (pi/3)^2.
+RANK_VARIANCE = (np.pi / 3.0) ** 2
+#: Share of the reference's rows at each end whose slope extends the map beyond its range.
+_TAIL = 0.1
 
 
 def average_ranks(values: np.ndarray) -> np.ndarray:
@@ -82,3 +103,107 @@ def normal_scores(values: np.ndarray) -> np.ndarray:
         return normal_scores(x[:, None])[:, 0]
     ranks = average_ranks(x)
     return ndtri(ranks / (x.shape[0] + 1.0))
+
+
+def rank_correlations(values: np.ndarray) -> np.ndarray:
+    """``2 sin(pi rho / 6)`` of Spearman's rho for every pair of columns of one regime.
+
+    Parameters
+    ----------
+    values : float array (n, p)
+        The rows of one regime.
+
+    Returns
+    -------
+    float array (p, p)
+        Ones on the diagonal; a constant column gets a zero row and column (diagonal 0).
+    """
+    x = np.asarray(values, dtype=float)
+    n, p = x.shape
+    if n < 2:
+        return np.zeros((p, p))
+    r = average_ranks(x)
+    r -= r.mean(axis=0)
+    sd = np.sqrt((r * r).sum(axis=0))
+    ok = sd > 0
+    r[:, ok] /= sd[ok]
+    rho = r.T @ r
+    out = 2.0 * np.sin(np.pi * np.clip(rho, -1.0, 1.0) / 6.0)
+    out[~ok, :] = 0.0
+    out[:, ~ok] = 0.0
+    np.fill_diagonal(out, ok.astype(float))
+    return out
+
+
+def anchored_normal_scores(reference: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Normal scores of `values` in the distribution of `reference`, column by column.
+
+    Inside the reference's range the map interpolates the normal scores of the
+    reference's own values (average ranks over ``n_ref + 1``); beyond it, it goes on
+    linearly with the slope over the outer `_TAIL` of the reference's values, so values
+    far outside still differ. The map is increasing, so it preserves order.
+
+    Parameters
+    ----------
+    reference : float array (n_ref, p)
+    values : float array (n, p)
+
+    Returns
+    -------
+    float array (n, p)
+    """
+    ref = np.asarray(reference, dtype=float)
+    x = np.asarray(values, dtype=float)
+    out = np.empty_like(x)
+    if ref.shape[0] == 0:
+        raise ValueError("reference should have rows: the scores are anchored to its values")
+    z_ref = normal_scores(ref)
+    for j in range(x.shape[1]):
+        u, first = np.unique(ref[:, j], return_index=True)
+        # each distinct reference value carries its (average-rank) score
+        z = z_ref[first, j]
+        if u.size == 1:
+            out[:, j] = np.where(x[:, j] > u[0], 1.0, np.where(x[:, j] < u[0], -1.0, 0.0))
+            continue
+        col = np.interp(x[:, j], u, z)
+        m = max(1, int(np.ceil(_TAIL * (u.size - 1))))
+        lo = (z[m] - z[0]) / (u[m] - u[0])
+        hi = (z[-1] - z[-1 - m]) / (u[-1] - u[-1 - m])
+        below, above = x[:, j] < u[0], x[:, j] > u[-1]
+        col[below] = z[0] + lo * (x[below, j] - u[0])
+        col[above] = z[-1] + hi * (x[above, j] - u[-1])
+        out[:, j] = col
+    return out
+
+
+def rank_moments(codes: np.ndarray, values: np.ndarray, variables, regimes,
+                 reference: list[int]):
+    """The statistics of the rank variant: `Moments` of the anchored normal scores (for
+    the invariance tests and the response matrix), carrying the within-regime rank
+    correlations for the CI tests (``ci_scatter``, ``ci_variance``).
+
+    Parameters
+    ----------
+    codes : int array (n,)
+        Regime of each row (index into `regimes`).
+    values : float array (n, p)
+    variables, regimes : sequences of str
+    reference : list of int
+        The codes of the reference regimes (their pooled rows anchor the scores).
+    """
+    from dataclasses import replace
+
+    from pipeline.stats.accumulate import MomentAccumulator
+
+    codes = np.asarray(codes)
+    x = np.asarray(values, dtype=float)
+    ref_rows = x[np.isin(codes, reference)]
+    acc = MomentAccumulator(variables, regimes)
+    acc.update(codes, anchored_normal_scores(ref_rows, x))
+    moments = acc.result()
+    k, p = len(regimes), x.shape[1]
+    ci = np.zeros((k, p, p))
+    for code in range(k):
+        rows = x[codes == code]
+        ci[code] = rank_correlations(rows) * max(rows.shape[0] - 1, 1)
+    return replace(moments, ci_scatter=ci, ci_variance=float(RANK_VARIANCE))
