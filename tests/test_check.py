@@ -112,6 +112,41 @@ def test_control_batch_with_shifted_mean_is_flagged():
     assert "X3" in res.controls.differing["ctrl_2"]
     assert all(v == "X3" for vs in res.controls.differing.values() for v in vs)
     assert any("control batches differ" in w for w in res.warnings)
+    # one reference is kept (the larger batch, here the first of two equal ones); the other
+    # is analysed apart: a regime of its own with no declared target
+    assert res.reference == ["ctrl_1"] and res.demoted == ["ctrl_2"]
+    apart = res.design.regime("ctrl_2")
+    assert not apart.reference and apart.known and apart.targets == ()
+
+
+def test_differing_control_batches_are_not_pooled_by_learn(tmp_path):
+    # two control batches with an offset on every variable (tests/generator.py), five
+    # single-target experiments: the learner keeps one reference, reports the other batch's
+    # shifts as off-target findings, and orients as well as without that batch
+    import sys
+
+    sys.path.insert(0, str(Path(__file__).parent))
+    from generator import generate
+
+    import pipeline
+    from pipeline.analyses.scoring import score
+    from pipeline.graphs.essential import essential_graph
+
+    g = generate(8, 2.0, n=1500, n_regimes=5, kinds=("do",), controls=2, batch_offset=0.5,
+                 seed=2)
+    paths = g.write(tmp_path)
+    result = pipeline.learn([paths["data"]], paths["regimes"])
+    assert result.check.demoted == ["control2"]
+    assert [r.name for r in result.design.reference] == ["control1"]
+    assert result.detected_targets["control2"] == ()  # it orients nothing
+    assert any(f.regime == "control2" and f.status == "off-target"
+               for f in result.learned.findings)  # the batch effect, found from the data
+    truth = essential_graph(g.dag, g.interventional_targets()).graph
+    g.data[g.data["regime"] != "control2"].to_csv(tmp_path / "without.csv", index=False)
+    g.regimes[g.regimes["regime"] != "control2"].to_csv(tmp_path / "without_regimes.csv",
+                                                        index=False)
+    alone = pipeline.learn([tmp_path / "without.csv"], tmp_path / "without_regimes.csv")
+    assert score(result.graph, truth).shd <= score(alone.graph, truth).shd
 
 
 def test_constant_within_regime_is_a_warning_and_a_shift():

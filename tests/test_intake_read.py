@@ -123,11 +123,11 @@ def test_rank_statistics_are_within_regime(tmp_path):
     m = intake.moments
     for k, name in enumerate(m.regimes):
         rows = frame.loc[frame["regime"] == name, variables].to_numpy(float)
-        # CI tests: Spearman's rho within the regime (scipy.stats.spearmanr), turned into a
-        # Pearson correlation by 2 sin(pi rho / 6) (Kruskal 1958; Harris & Drton 2013)
-        rho = stats.spearmanr(rows).statistic
+        # CI tests: correlations of the normal scores of the ranks within the regime
+        # (Phi^-1(rank / (n + 1)), scipy.stats; Klaassen & Wellner 1997), never pooled
+        scores = stats.norm.ppf(stats.rankdata(rows, axis=0) / (len(rows) + 1))
         np.testing.assert_allclose(m.ci_scatter[k] / (len(rows) - 1),
-                                   2 * np.sin(np.pi * rho / 6), atol=1e-12)
+                                   np.corrcoef(scores, rowvar=False), atol=1e-12)
     # invariance tests: normal scores in the reference's distribution; the reference's own
     # rows get Phi^-1(rank / (n_ref + 1)) of their ranks among themselves (scipy)
     ref = frame.loc[frame["regime"] == "ctrl", variables].to_numpy(float)
@@ -136,7 +136,7 @@ def test_rank_statistics_are_within_regime(tmp_path):
     np.testing.assert_allclose(m.mean[k], scores.mean(axis=0), atol=1e-12)
     dev = scores - scores.mean(axis=0)
     np.testing.assert_allclose(m.scatter[k], dev.T @ dev, atol=1e-9)
-    assert m.ci_variance == pytest.approx((np.pi / 3) ** 2)  # delta method at rho = 0
+    assert m.ci_variance == 1.0
 
 
 def test_warnings_few_samples_and_knockout(tmp_path):

@@ -47,7 +47,9 @@ def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> 
         g2 = (n_ref * stats.kurtosis(ref[:, x], bias=False)
               + n_k * stats.kurtosis(regime[:, x], bias=False)) / n
         r2 = (n_ref * fits[0].rsquared + n_k * fits[1].rsquared) / n if cond else 0.0
-        kappa = max(g2, 0.0) / (1 - min(r2, 0.99)) + KURTOSIS_MARGIN / np.sqrt(n)
+        relative, absolute = KURTOSIS_MARGIN
+        kappa = (max(g2, 0.0) / (1 - min(r2, 0.99)) * (1 + relative / n**0.75)
+                 + absolute / np.sqrt(n))
     d_ref, d_k = (n_ref - q) * 2 / (2 + kappa), (n_k - q) * 2 / (2 + kappa)
     ratio = fits[1].mse_resid / fits[0].mse_resid
     p_var = min(1.0, 2 * min(stats.f.cdf(ratio, d_k, d_ref), stats.f.sf(ratio, d_k, d_ref)))

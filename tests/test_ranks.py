@@ -39,8 +39,8 @@ def test_edge_cases():
         normal_scores(np.zeros((2, 2, 2)))
 
 
-def test_rank_correlations_match_scipy_spearman():
-    # Spearman's rho (scipy.stats.spearmanr), turned into 2 sin(pi rho / 6) (Kruskal 1958)
+def test_rank_correlations_are_normal_score_correlations():
+    # normal scores of the ranks within the sample (scipy.stats), then numpy's corrcoef
     from scipy import stats
 
     from pipeline.stats.ranks import rank_correlations
@@ -48,8 +48,13 @@ def test_rank_correlations_match_scipy_spearman():
     rng = np.random.default_rng(3)
     x = rng.normal(size=(80, 4)) @ rng.normal(size=(4, 4))
     x[:, 2] = np.round(x[:, 2])  # ties
-    rho = stats.spearmanr(x).statistic
-    np.testing.assert_allclose(rank_correlations(x), 2 * np.sin(np.pi * rho / 6), atol=1e-12)
+    scores = stats.norm.ppf(stats.rankdata(x, axis=0) / 81)
+    np.testing.assert_allclose(rank_correlations(x), np.corrcoef(scores, rowvar=False),
+                               atol=1e-12)
+    # a monotone transform of a column changes nothing
+    y = x.copy()
+    y[:, 0] = np.exp(y[:, 0])
+    np.testing.assert_allclose(rank_correlations(y), rank_correlations(x), atol=1e-12)
     x[:, 1] = 5.0  # a constant column: zero row and column
     out = rank_correlations(x)
     assert out[1].tolist() == [0.0] * 4 and out[:, 1].tolist() == [0.0] * 4

@@ -164,9 +164,9 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
         warnings.append(
             f"control batches differ ({diff}; Bonferroni-adjusted p <= {alpha:g}); pooling them "
             f"would mix different laws, so the reference is {kept}"
-            + (f" and {', '.join(demoted)} {'is' if len(demoted) == 1 else 'are'} analysed as "
-               "regime(s) with unknown targets (a batch effect shows up as their detected "
-               "targets)" if demoted else ""))
+            + (f"; {', '.join(demoted)} {'is' if len(demoted) == 1 else 'are'} analysed apart "
+               "(its rows count in the tests of independence, but it orients no edge; what "
+               "its batch effect moves is listed as off-target findings)" if demoted else ""))
 
     # 4. the response matrix against that reference
     response = response_matrix(moments, design)
@@ -348,15 +348,19 @@ def distribution_shape(moments: Moments, skew_limit: float = 1.0,
 
 def settle_reference(moments: Moments, design: Design, alpha: float
                      ) -> tuple[Design, list[str]]:
-    """Keep one reference when control batches differ; the others become regimes apart.
+    """Keep one reference when control batches differ; the others are analysed apart.
 
     The largest control (the first of equal size) is the reference; every other control is
     tested against it (marginal invariance of each variable, Bonferroni over the
-    variables) and, when it differs, turned into a regime with unknown targets
-    (``known=False``), so that the learner finds what its batch effect acts on. Controls
-    that agree stay pooled into the reference.
+    variables) and, when it differs, leaves the reference: it stays a regime of its own
+    with no declared target. Its rows still count in the tests of independence (which
+    stratify by regime), its intervention node is joined to nothing, so a batch effect
+    orients no edge, and the variables the batch effect moves are reported as off-target
+    findings. (Learning its targets instead would let a batch effect too small to detect
+    on one variable orient that variable's edges: measured worse on simulated batches.)
+    Controls that agree stay pooled into the reference.
 
-    Returns the new design and the names of the controls turned into regimes.
+    Returns the new design and the names of the controls analysed apart.
     """
     controls = list(design.reference)
     if len(controls) < 2:
@@ -374,7 +378,7 @@ def settle_reference(moments: Moments, design: Design, alpha: float
             demoted.append(r.name)
     if not demoted:
         return design, []
-    regimes = tuple(replace(r, known=False, reference=False) if r.name in demoted else r
+    regimes = tuple(replace(r, reference=False) if r.name in demoted else r
                     for r in design.regimes)
     return replace(design, regimes=regimes), demoted
 

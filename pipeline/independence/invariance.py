@@ -27,8 +27,8 @@ the bias-adjusted sample excess kurtosis of X (Joanes & Gill 1998) pooled over t
 regimes, floored at 0 (never more liberal than the Gaussian test), divided by ``1 - R^2``
 of the regression (the residual of a linear model is heavier-tailed than X when S
 explains part of it; for one regressor of the same tails this is exact at R^2 = 1/2), and
-raised by `KURTOSIS_MARGIN` ``/ sqrt(n)`` for the estimation error of the kurtosis
-itself at small n. The calibration of this construction under Gaussian, exponential and
+raised by `KURTOSIS_MARGIN` for the estimation error and the downward bias of a sample
+kurtosis at small n. The calibration of this construction under Gaussian, exponential and
 t(3) errors from 30 to 2000 samples per regime is checked by the tests
 (``tests/test_invariance_calibration.py``).
 
@@ -90,9 +90,11 @@ __all__ = ["KURTOSIS_MARGIN", "invariance_test", "regime_pair", "response_matrix
 _RTOL_CONSTANT = 1e-12
 
 
-#: Added to the residual kurtosis, divided by sqrt(n): room for the kurtosis estimate's
-#: own error at small n (see the module docstring and the calibration tests).
-KURTOSIS_MARGIN = 4.0
+#: Room for the kurtosis estimate's own error and its downward bias at small n: the
+#: residual kurtosis k is used as ``k (1 + KURTOSIS_MARGIN[0] / n^(3/4)) +
+#: KURTOSIS_MARGIN[1] / sqrt(n)`` with n the samples of both regimes (chosen on null
+#: simulations under Gaussian, exponential and t(3) errors; see the calibration tests).
+KURTOSIS_MARGIN = (56.0, 5.0)
 #: Largest R^2 used to carry the kurtosis of X over to the residual (the divisor 1 - R^2
 #: is at least 1e-2).
 _R2_CAP = 0.99
@@ -167,7 +169,8 @@ class _Pair:
                     r2 = 1.0 - (n_ref * unit[:, 0] + n_k * unit[:, 1]) / n_all
                     r2 = np.clip(r2, 0.0, _R2_CAP)
                     kappa = (self.kurtosis[xs] / (1.0 - r2)
-                             + KURTOSIS_MARGIN / np.sqrt(n_all))
+                             * (1.0 + KURTOSIS_MARGIN[0] / n_all**0.75)
+                             + KURTOSIS_MARGIN[1] / np.sqrt(n_all))
                 shrink = 2.0 / (2.0 + kappa)
                 d_ref, d_k = (n_ref - q) * shrink, (n_k - q) * shrink
                 ratio = (rss[:, 1] / (n_k - q)) / (rss[:, 0] / (n_ref - q))

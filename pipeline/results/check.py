@@ -171,7 +171,7 @@ class CheckResult:
     reference : list of str, the regimes the learner pools as the reference (the
         controls that agree; see `pipeline.analyses.check.settle_reference`)
     demoted : list of str, control batches that differ from the reference and are
-        analysed as regimes with unknown targets
+        analysed apart (regimes with no declared target)
     """
 
     design: Design
@@ -411,8 +411,8 @@ class CheckResult:
         verdict = "[green]agree[/green]" if c.agree else "[red]differ[/red]"
         line = f"Control batches {verdict}"
         if self.demoted:
-            line += (f"; reference: {escape(', '.join(self.reference))}; analysed as regimes "
-                     f"with unknown targets: {escape(', '.join(self.demoted))}")
+            line += (f"; reference: {escape(', '.join(self.reference))}; analysed apart: "
+                     f"{escape(', '.join(self.demoted))}")
         console.print(line, highlight=False)
 
 

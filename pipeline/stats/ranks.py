@@ -5,17 +5,22 @@ The rank variant of the tests keeps its level for any monotone transform of Gaus
 regimes with different parameters make the pooled ranks a non-linear function of the
 values inside each regime. So the two kinds of test get two rank statistics:
 
-- conditional independence: per regime, Spearman's rank correlation ``rho`` of every
-  pair, computed from the ranks *within* the regime, turned into a Pearson correlation by
-  ``2 sin(pi rho / 6)`` (exact for Gaussian data; Kruskal 1958, Harris & Drton 2013)
-  (`rank_correlations`). The Fisher z test reads these; near independence
-  ``var(2 sin(pi rho / 6)) ~ (pi / 3)^2 var(rho)`` (the delta method), so its weights are
-  divided by `RANK_VARIANCE`;
+- conditional independence: per regime, the Pearson correlations of the normal scores of
+  the ranks *within* the regime (`rank_correlations`; the normal-scores rank correlation,
+  which under a Gaussian copula estimates the latent correlation as efficiently as
+  Pearson's does under normality: Klaassen & Wellner 1997), so the Fisher z test keeps its
+  null variance given any conditioning set. (Spearman's rho turned into
+  ``2 sin(pi rho / 6)``, Harris & Drton 2013, estimates the same correlation, but its
+  variance exceeds Fisher's once the conditioning variables are correlated with X and Y,
+  and the test was measured liberal: 2.4-2.9 % at alpha 1 % with two conditioning
+  variables.)
 - invariance: every value is replaced by its normal score *in the reference's
   distribution*, ``Phi^{-1}(F_ref(x))`` with ``F_ref`` the reference's empirical
-  distribution function (interpolated, and extended linearly beyond the reference's
-  range) (`anchored_normal_scores`), one monotone map per variable for all regimes, so a
-  shift of a regime stays a shift.
+  distribution function (interpolated; a value beyond the reference's range takes the
+  extreme score one step further out, since the map is unknown there)
+  (`anchored_normal_scores`), one monotone map per variable for all regimes, so a shift
+  of a regime stays a shift. The scores have Gaussian tails by construction, so these
+  tests need no kurtosis correction.
 
 `normal_scores` (pooled ranks of one sample) is the transform of a single regime.
 
@@ -27,8 +32,8 @@ References
 ----------
 1. N. Harris, M. Drton (2013). PC algorithm for nonparanormal graphical models.
    Journal of Machine Learning Research 14, 3365-3383.
-2. W. H. Kruskal (1958). Ordinal measures of association. Journal of the American
-   Statistical Association 53, 814-861.
+2. C. A. J. Klaassen, J. A. Wellner (1997). Efficient estimation in the bivariate normal
+   copula model: normal margins are least favourable. Bernoulli 3(1), 55-77.
 """
 
 from __future__ import annotations
@@ -36,13 +41,10 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import ndtri
 
-__all__ = ["RANK_VARIANCE", "normal_scores", "average_ranks", "rank_correlations",
+__all__ = ["normal_scores", "average_ranks", "rank_correlations",
            "anchored_normal_scores", "rank_moments"]
 
-#: Null variance of ``sqrt(n - |S| - 3) atanh(r)`` for ``r = 2 sin(pi rho / 6)``: (pi/3)^2.
-RANK_VARIANCE = (np.pi / 3.0) ** 2
-#: Share of the reference's rows at each end whose slope extends the map beyond its range.
-_TAIL = 0.1
+
 
 
 def average_ranks(values: np.ndarray) -> np.ndarray:
@@ -106,7 +108,7 @@ def normal_scores(values: np.ndarray) -> np.ndarray:
 
 
 def rank_correlations(values: np.ndarray) -> np.ndarray:
-    """``2 sin(pi rho / 6)`` of Spearman's rho for every pair of columns of one regime.
+    """Correlations of the normal scores within one regime (a Gaussian rank correlation).
 
     Parameters
     ----------
@@ -116,19 +118,19 @@ def rank_correlations(values: np.ndarray) -> np.ndarray:
     Returns
     -------
     float array (p, p)
-        Ones on the diagonal; a constant column gets a zero row and column (diagonal 0).
+        Pearson correlations of ``Phi^-1(rank / (n + 1))`` column by column; ones on the
+        diagonal; a constant column gets a zero row and column (diagonal 0).
     """
     x = np.asarray(values, dtype=float)
     n, p = x.shape
     if n < 2:
         return np.zeros((p, p))
-    r = average_ranks(x)
+    r = normal_scores(x)
     r -= r.mean(axis=0)
     sd = np.sqrt((r * r).sum(axis=0))
     ok = sd > 0
     r[:, ok] /= sd[ok]
-    rho = r.T @ r
-    out = 2.0 * np.sin(np.pi * np.clip(rho, -1.0, 1.0) / 6.0)
+    out = np.clip(r.T @ r, -1.0, 1.0)
     out[~ok, :] = 0.0
     out[:, ~ok] = 0.0
     np.fill_diagonal(out, ok.astype(float))
@@ -139,9 +141,10 @@ def anchored_normal_scores(reference: np.ndarray, values: np.ndarray) -> np.ndar
     """Normal scores of `values` in the distribution of `reference`, column by column.
 
     Inside the reference's range the map interpolates the normal scores of the
-    reference's own values (average ranks over ``n_ref + 1``); beyond it, it goes on
-    linearly with the slope over the outer `_TAIL` of the reference's values, so values
-    far outside still differ. The map is increasing, so it preserves order.
+    reference's own values (average ranks over ``n_ref + 1``); a value beyond it takes the
+    extreme score one step further out (a straight extension in value space was measured
+    liberal for heavy-tailed margins: far values get far scores). The map is
+    non-decreasing, so it preserves order.
 
     Parameters
     ----------
@@ -166,12 +169,11 @@ def anchored_normal_scores(reference: np.ndarray, values: np.ndarray) -> np.ndar
             out[:, j] = np.where(x[:, j] > u[0], 1.0, np.where(x[:, j] < u[0], -1.0, 0.0))
             continue
         col = np.interp(x[:, j], u, z)
-        m = max(1, int(np.ceil(_TAIL * (u.size - 1))))
-        lo = (z[m] - z[0]) / (u[m] - u[0])
-        hi = (z[-1] - z[-1 - m]) / (u[-1] - u[-1 - m])
-        below, above = x[:, j] < u[0], x[:, j] > u[-1]
-        col[below] = z[0] + lo * (x[below, j] - u[0])
-        col[above] = z[-1] + hi * (x[above, j] - u[-1])
+        # beyond the range the map is unknown: values there take the extreme score, one
+        # reference step further out (np.interp alone would tie them with the extreme)
+        step_lo, step_hi = z[1] - z[0], z[-1] - z[-2]
+        col[x[:, j] < u[0]] = z[0] - step_lo
+        col[x[:, j] > u[-1]] = z[-1] + step_hi
         out[:, j] = col
     return out
 
@@ -180,7 +182,7 @@ def rank_moments(codes: np.ndarray, values: np.ndarray, variables, regimes,
                  reference: list[int]):
     """The statistics of the rank variant: `Moments` of the anchored normal scores (for
     the invariance tests and the response matrix), carrying the within-regime rank
-    correlations for the CI tests (``ci_scatter``, ``ci_variance``).
+    correlations for the CI tests (``ci_scatter``).
 
     Parameters
     ----------
@@ -206,4 +208,6 @@ def rank_moments(codes: np.ndarray, values: np.ndarray, variables, regimes,
     for code in range(k):
         rows = x[codes == code]
         ci[code] = rank_correlations(rows) * max(rows.shape[0] - 1, 1)
-    return replace(moments, ci_scatter=ci, ci_variance=float(RANK_VARIANCE))
+    # normal scores have Gaussian tails by construction: the invariance tests need no
+    # kurtosis correction (m3, m4 left unknown)
+    return replace(moments, m3=None, m4=None, ci_scatter=ci, ci_variance=1.0)
