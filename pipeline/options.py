@@ -74,7 +74,7 @@ def split_names(value: Any) -> tuple[str, ...]:
 
 
 def check_data_paths(data: Any) -> list[Path]:
-    """One or more existing measurement files (a `DataFiles` keeps its reading options)."""
+    """One or more existing measurement files."""
     if data is None or (isinstance(data, (list, tuple)) and not data):
         raise InputError("DATA: no data file given; name one or more measurement files")
     if isinstance(data, (str, Path)):
@@ -88,9 +88,6 @@ def check_data_paths(data: Any) -> list[Path]:
         if not p.is_file():
             raise InputError(f"data file {p}: no such file; check the path")
         paths.append(p)
-    reading = getattr(data, "reading", None)  # a DataFiles carries how to read the files
-    if reading is not None:
-        return type(data)(paths, reading)
     return paths
 
 

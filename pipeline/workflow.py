@@ -111,8 +111,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     progress : bool or callable
         True: progress bars on a terminal; a callable receives ``(label, done, total)``.
     decimal, regime_from, sheet, genes
-        How to read the files, as for `pipeline.intake.read.read_inputs` (also carried
-        by `data` when it is a `pipeline.intake.tables.DataFiles`).
+        How to read the files, as for `pipeline.intake.read.read_inputs`.
 
     Returns
     -------
@@ -128,7 +127,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         alpha, max_condition_size, targets, test, collider_rule)
     from pipeline.intake.tables import reading_of
 
-    reading = reading_of(data, decimal, regime_from, sheet, genes)
+    reading = reading_of(decimal, regime_from, sheet, genes)
     paths, regimes_path = check_data_paths(data), check_regimes_path(regimes)
     if out is not None and Path(out).exists() and not Path(out).is_dir():
         raise InputError(f"--out {out}: is a file; name a folder for the result files")

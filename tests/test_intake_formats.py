@@ -21,7 +21,7 @@ from h5ad_files import write_h5ad
 from pipeline.errors import InputError
 from pipeline.intake.formats import h5ad as h5ad_reader
 from pipeline.intake.read import read_inputs
-from pipeline.intake.tables import DataFiles, ReadOptions, iter_chunks, read_header
+from pipeline.intake.tables import ReadOptions, iter_chunks, read_header
 from pipeline.stats.fingerprint import fingerprint_inputs
 
 REGIMES = "regime,targets\nctrl,\nkd_G1,G1\nkd_G2,G2\n"
@@ -176,8 +176,6 @@ def test_excel_sheet_gives_the_csv_statistics(folder):
     _workbook(folder / "two.xlsx", {"notes": frame.iloc[:5], "cells": frame})
     m = read_inputs([folder / "two.xlsx"], folder / "regimes.csv", sheet="cells").moments
     _same(m, ref)
-    files = DataFiles([folder / "two.xlsx"], ReadOptions(sheet="cells"))  # options carried
-    _same(read_inputs(files, folder / "regimes.csv").moments, ref)
 
 
 def test_excel_bad_variants_exit_2(folder, monkeypatch, capsys):

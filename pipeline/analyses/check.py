@@ -75,7 +75,9 @@ MIN_SAMPLES = 30
 def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           regime_column: str = "regime", ignore_columns: Sequence[str] = (),
           drop_missing: bool = False, reference: str | None = None,
-          alpha: float = 0.01, test: str = "gaussian", progress: bool = False) -> CheckResult:
+          alpha: float = 0.01, test: str = "gaussian", progress: bool = False,
+          decimal: str | None = None, regime_from: str | None = None, sheet: str | None = None,
+          genes: str | Path | Sequence[str] | None = None) -> CheckResult:
     """Read measurement files and a regimes file and check them (see the module docstring).
 
     Parameters
@@ -85,6 +87,7 @@ def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     regime_column, ignore_columns, drop_missing, reference : as for `read_inputs`
     alpha : float in (0, 1), level of the target, response and control tests
     test : {"gaussian", "rank"}, the tests' statistics (see `pipeline.intake.read.read_inputs`)
+    decimal, regime_from, sheet, genes : how to read the files, as for `read_inputs`
     progress : bool, show a progress display on standard error while reading
 
     Returns
@@ -102,7 +105,8 @@ def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
 
     intake = read_inputs(data, regimes, regime_column=regime_column,
                          ignore_columns=tuple(ignore_columns), drop_missing=drop_missing,
-                         reference=reference, test=test, progress=progress)
+                         reference=reference, test=test, progress=progress,
+                         decimal=decimal, regime_from=regime_from, sheet=sheet, genes=genes)
     return check_intake(intake, alpha=alpha)
 
 

@@ -413,7 +413,9 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
              drop_missing: bool = False, test: str = "gaussian",
              collider_rule: str = "majority", class_samples: int = 1000,
              threshold: float = 0.5, seed: int | None = None,
-             progress: ProgressArg = False) -> ValidationResult:
+             progress: ProgressArg = False, decimal: str | None = None,
+             regime_from: str | None = None, sheet: str | None = None,
+             genes: str | Path | Sequence[str] | None = None) -> ValidationResult:
     """Hold out regimes of measurement files one at a time and score the predictions.
 
     Parameters
@@ -434,7 +436,8 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     alpha, min_shift, max_condition_size, targets, collider_rule, class_samples,
     threshold, seed
         As for `validate_from_moments`.
-    reference, regime_column, ignore_columns, drop_missing, test
+    reference, regime_column, ignore_columns, drop_missing, test, decimal, regime_from, sheet,
+    genes
         As for `pipeline.intake.read.read_inputs`.
     progress : bool or callable
 
@@ -458,12 +461,16 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                          "one of them")
     from pipeline.independence.store import TestStore
     from pipeline.intake.read import read_inputs
+    from pipeline.intake.tables import reading_of
     from pipeline.stats.fingerprint import fingerprint_inputs
     from pipeline.workflow import STORE_NAME
 
     ignore = split_names(ignore_columns)
+    reading = reading_of(decimal, regime_from, sheet, genes)
     options = dict(regime_column=regime_column, ignore_columns=ignore,
-                   drop_missing=bool(drop_missing), reference=reference, test=test)
+                   drop_missing=bool(drop_missing), reference=reference, test=test,
+                   decimal=reading.decimal, regime_from=reading.regime_from,
+                   sheet=reading.sheet, genes=reading.genes)
     fingerprint = fingerprint_inputs(paths, regimes_path, **options)
     store_path = Path(out) / STORE_NAME if out is not None else None
     store = TestStore(store_path) if store_path is not None and store_path.is_file() else None

@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 from pipeline.errors import InputError
 
 if TYPE_CHECKING:  # the parser is built without the numerical stack
-    from pipeline.intake.tables import DataFiles, ReadOptions
+    from pipeline.intake.tables import ReadOptions
 
 __all__ = ["add_input_arguments", "MeasurementInputs", "measurement_inputs"]
 
@@ -48,26 +48,25 @@ def add_input_arguments(parser: argparse.ArgumentParser) -> None:
 class MeasurementInputs:
     """The shared input options, checked.
 
-    `data` is a `DataFiles` (the paths, carrying the reading options in `reading`);
-    `options` are keywords of `read_inputs` and kin.
+    `options` are keywords of `read_inputs` and of every API function that reads
+    measurements (`learn`, `check`, `validate`), reading options included.
     """
 
-    data: DataFiles
+    data: list[str]
     regimes: str
     regime_column: str
     ignore_columns: tuple[str, ...]
     drop_missing: bool
     reference: str | None
-
-    @property
-    def reading(self) -> ReadOptions:
-        """How to read the files (decimal mark, regime source, sheet, genes)."""
-        return self.data.reading
+    reading: ReadOptions
 
     @property
     def options(self) -> dict:
+        r = self.reading
         return {"regime_column": self.regime_column, "ignore_columns": self.ignore_columns,
-                "drop_missing": self.drop_missing, "reference": self.reference}
+                "drop_missing": self.drop_missing, "reference": self.reference,
+                "decimal": r.decimal, "regime_from": r.regime_from, "sheet": r.sheet,
+                "genes": r.genes}
 
 
 def measurement_inputs(args: argparse.Namespace) -> MeasurementInputs:
@@ -81,12 +80,12 @@ def measurement_inputs(args: argparse.Namespace) -> MeasurementInputs:
     ignore = args.ignore_columns
     if isinstance(ignore, str):  # "A,B" on the command line, a list in a config file
         ignore = ignore.split(",")
-    from pipeline.intake.tables import DataFiles, read_options
+    from pipeline.intake.tables import read_options
 
     reading = read_options(decimal=getattr(args, "decimal", "."),
                            regime_from=getattr(args, "regime_from", "column"),
                            sheet=getattr(args, "sheet", None),
                            genes=getattr(args, "genes", None))
-    return MeasurementInputs(DataFiles(data, reading), str(args.regimes), args.regime_column,
+    return MeasurementInputs(data, str(args.regimes), args.regime_column,
                              tuple(str(c).strip() for c in ignore if str(c).strip()),
-                             bool(args.drop_missing), args.reference)
+                             bool(args.drop_missing), args.reference, reading)

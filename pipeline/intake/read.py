@@ -141,9 +141,7 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
     data : sequence of str or Path
         Measurement files, read as one table: CSV (``.csv``), tab-separated (``.tsv``,
         ``.tab``, ``.txt``), either gzip-compressed (``.gz``), Parquet (``.parquet``),
-        Excel (``.xlsx``), AnnData (``.h5ad``). A
-        :class:`~pipeline.intake.tables.DataFiles` also carries the reading options
-        below (a keyword given here wins).
+        Excel (``.xlsx``), AnnData (``.h5ad``).
     regimes : str or Path
         The regimes file (see :mod:`pipeline.intake.regimes`).
     regime_column : str
@@ -175,7 +173,7 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         Any problem of the inputs; the message names the culprit and what to do.
     """
     # 1. arguments, headers, variables, regimes file
-    reading = reading_of(data, decimal, regime_from, sheet, genes)
+    reading = reading_of(decimal, regime_from, sheet, genes)
     paths, regimes_path, regime_column, ignore = _check_arguments(
         data, regimes, regime_column, ignore_columns, test, chunk_rows)
     by_name = reading.regime_from == "filename"

@@ -34,8 +34,7 @@ from pipeline.intake.formats.base import (
 
 __all__ = ["SUFFIXES", "NA_STRINGS", "DECIMALS", "REGIME_SOURCES", "ReadOptions", "TableHeader",
            "Chunk", "check_data_path", "read_header", "resolve_variables", "iter_chunks",
-           "locate_row", "read_genes", "read_options", "reading_of", "file_stem",
-           "DataFiles"]
+           "locate_row", "read_genes", "read_options", "reading_of", "file_stem"]
 
 #: Accepted data file endings and their (kind, compression).
 SUFFIXES = formats.SUFFIXES
@@ -292,28 +291,11 @@ def read_options(*, decimal: str = ".", regime_from: str = "column", sheet: str 
     return ReadOptions(decimal=decimal, regime_from=regime_from, sheet=sheet, genes=names)
 
 
-class DataFiles(list):
-    """Paths of measurement files that carry how to read them (`reading`, a ReadOptions).
-
-    Functions that take data paths and pass them on (`pipeline.evidence.check.check`,
-    `pipeline.workflow.learn`) hand the reading options to `read_inputs` this way.
-
-    >>> files = DataFiles(["a.xlsx"], ReadOptions(sheet="plate 1"))
-    >>> list(files), files.reading.sheet
-    (['a.xlsx'], 'plate 1')
-    """
-
-    def __init__(self, paths, reading: ReadOptions | None = None):
-        super().__init__(paths)
-        self.reading = reading or ReadOptions()
-
-
-def reading_of(data: object, decimal: str | None = None, regime_from: str | None = None,
+def reading_of(decimal: str | None = None, regime_from: str | None = None,
                sheet: str | None = None,
                genes: str | Path | Sequence[str] | None = None) -> ReadOptions:
-    """The reading options: those carried by `data` (a `DataFiles`), each replaced by the
-    keyword given (not None), checked."""
-    base = data.reading if isinstance(data, DataFiles) else ReadOptions()
+    """The reading options, checked; None takes the default."""
+    base = ReadOptions()
     given = {"decimal": decimal, "regime_from": regime_from, "sheet": sheet, "genes": genes}
     values = {k: getattr(base, k) if v is None else v for k, v in given.items()}
     return read_options(**values)

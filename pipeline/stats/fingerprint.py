@@ -97,7 +97,7 @@ def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
     """
     from pipeline.intake.tables import reading_of
 
-    r = reading_of(data, decimal, regime_from, sheet, genes)
+    r = reading_of(decimal, regime_from, sheet, genes)
     options = statistics_options(regime_column=regime_column, ignore_columns=ignore_columns,
                                  drop_missing=drop_missing, reference=reference, test=test,
                                  decimal=r.decimal, regime_from=r.regime_from, sheet=r.sheet,
