@@ -69,15 +69,20 @@ def file_record(path: str | Path, role: str) -> dict[str, Any]:
     InputError
         If the file cannot be read.
     """
-    h = hashlib.sha256()
+    from pipeline.stats.fingerprint import FILE_HASHES, file_key
+
     try:
-        with open(path, "rb") as fh:
-            while block := fh.read(_BLOCK):
-                h.update(block)
-        size = Path(path).stat().st_size
+        key = file_key(Path(path))
+        digest = FILE_HASHES.get(key)  # hashed already by the input fingerprint
+        if digest is None:
+            h = hashlib.sha256()
+            with open(path, "rb") as fh:
+                while block := fh.read(_BLOCK):
+                    h.update(block)
+            digest = h.hexdigest()
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
-    return {"role": role, "path": str(path), "bytes": int(size), "sha256": h.hexdigest()}
+    return {"role": role, "path": str(path), "bytes": key[1], "sha256": digest}
 
 
 def provenance(data: Iterable[str | Path], regimes: str | Path | None = None) -> dict[str, Any]:

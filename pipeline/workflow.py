@@ -24,7 +24,7 @@ import time
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager, nullcontext
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from pipeline.design import Design
 from pipeline.errors import InputError
@@ -39,8 +39,10 @@ from pipeline.options import (
     check_regimes_path,
     split_names,
 )
-from pipeline.results.learn import LearnResult
 from pipeline.stats.moments import Moments
+
+if TYPE_CHECKING:  # imported where a result is made: the output layer pulls in pandas
+    from pipeline.results.learn import LearnResult
 
 __all__ = ["learn", "learn_from_moments", "TARGET_MODES", "TESTS", "COLLIDER_RULES",
            "STORE_NAME"]
@@ -125,7 +127,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     # 0. validate everything once
     alpha, max_k, targets, test, collider_rule = _check_options(
         alpha, max_condition_size, targets, test, collider_rule)
-    from pipeline.intake.tables import reading_of
+    from pipeline.intake.reading import reading_of
 
     reading = reading_of(decimal, regime_from, sheet, genes)
     paths, regimes_path = check_data_paths(data), check_regimes_path(regimes)
@@ -134,7 +136,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     ignore = split_names(ignore_columns)
     started = time.perf_counter()
 
-    from pipeline.intake.read import Intake, read_inputs
+    from pipeline.intake.record import Intake
     from pipeline.stats.fingerprint import fingerprint_inputs
 
     # 1. the fingerprint: raw bytes and the options that change the statistics
@@ -152,6 +154,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     store = TestStore(store_path) if store_path is not None and store_path.is_file() else None
     try:
         stored = store.get_inputs(fingerprint) if store is not None else None
+        notice = _changed_inputs(store, fingerprint, out) if stored is None else None
         if stored is not None:
             intake = Intake(stored.design, stored.moments, fingerprint, stored.dropped_rows,
                             list(stored.warnings))
@@ -159,6 +162,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
             from pipeline.progress import Progress
 
             show = progress.enabled if isinstance(progress, Progress) else progress is True
+            from pipeline.intake.read import read_inputs
+
             intake = read_inputs(paths, regimes_path, progress=show, fingerprint=fingerprint,
                                  **options)
             if store_path is not None:
@@ -178,6 +183,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                             targets=targets, collider_rule=collider_rule, settings=settings,
                             progress=progress, check=True)
             result.run["from_store"] = stored is not None
+            if notice:
+                result.run["notice"] = notice
             result.run["seconds"] = time.perf_counter() - started
             # where the result comes from: inputs (sizes, hashes), version, date, command
             from pipeline.provenance import provenance
@@ -191,6 +198,20 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         if store is not None:
             store.close()
     return result
+
+
+def _changed_inputs(store, fingerprint: str, out) -> str | None:
+    """One line when the last run in `out` read other inputs (a file or an option changed)."""
+    if store is None:
+        return None
+    runs = store.runs()
+    if not runs:
+        return None
+    last = str(runs[-1]["fingerprint"]).split("|")[0]
+    if last == fingerprint:
+        return None
+    return (f"the inputs differ from those of the last run in {out} (a file or a reading "
+            "option changed): the data were read again; earlier tests stay in the store")
 
 
 def _reading_settings(reading) -> dict:
@@ -268,7 +289,7 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
     checked = None
     if check:
         from pipeline.analyses.check import check_intake
-        from pipeline.intake.read import Intake
+        from pipeline.intake.record import Intake
 
         if intake is None:
             intake = Intake(design, moments, fingerprint, 0, list(design.warnings))
@@ -316,6 +337,8 @@ def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str,
     else:
         n = getattr(tester, "n_tests", {})
         run.update(computed=sum(n.values()) if n else None, reused=0)
+    from pipeline.results.learn import LearnResult
+
     return LearnResult(learned=learned, design=learner_design, settings=settings,
                        warnings=warnings, check=checked, run=run)
 

@@ -31,7 +31,24 @@ def test_learn_writes_six_files_then_keeps_history(tmp_path, files, capsys):
     assert sorted(p.name for p in entry.iterdir()) == sorted(RESULT_FILES)
     assert json.loads((out / "result.json").read_text())["settings"]["alpha"] == 0.001
     assert json.loads((entry / "result.json").read_text())["settings"]["alpha"] == 0.01
-    assert "reused from the store" in capsys.readouterr().out
+    printed = capsys.readouterr().out
+    assert "reused from the store" in printed and "inputs differ" not in printed
+
+
+def test_a_changed_input_under_the_same_out_is_said(tmp_path, files, capsys):
+    import shutil
+
+    data = tmp_path / "data.csv"
+    shutil.copy(files / "data.csv", data)
+    out = tmp_path / "out"
+    args = ["learn", str(data), "--regimes", str(files / "regimes.csv"), "--out", str(out)]
+    assert cli.main(args) == 0
+    capsys.readouterr()
+    lines = data.read_text().splitlines()
+    data.write_text("\n".join(lines[:-5]) + "\n")  # five rows fewer
+    assert cli.main(args) == 0
+    notes = [ln for ln in capsys.readouterr().out.splitlines() if "inputs differ" in ln]
+    assert len(notes) == 1 and "read again" in notes[0]
 
 
 @pytest.mark.parametrize("extra, culprit", [

@@ -461,7 +461,7 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                          "one of them")
     from pipeline.independence.store import TestStore
     from pipeline.intake.read import read_inputs
-    from pipeline.intake.tables import reading_of
+    from pipeline.intake.reading import reading_of
     from pipeline.stats.fingerprint import fingerprint_inputs
     from pipeline.workflow import STORE_NAME
 

@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 from pipeline.errors import InputError
 
 if TYPE_CHECKING:  # the parser is built without the numerical stack
-    from pipeline.intake.tables import ReadOptions
+    from pipeline.intake.reading import ReadOptions
 
 __all__ = ["add_input_arguments", "MeasurementInputs", "measurement_inputs"]
 
@@ -80,7 +80,7 @@ def measurement_inputs(args: argparse.Namespace) -> MeasurementInputs:
     ignore = args.ignore_columns
     if isinstance(ignore, str):  # "A,B" on the command line, a list in a config file
         ignore = ignore.split(",")
-    from pipeline.intake.tables import read_options
+    from pipeline.intake.reading import read_options
 
     reading = read_options(decimal=getattr(args, "decimal", "."),
                            regime_from=getattr(args, "regime_from", "column"),

@@ -72,6 +72,11 @@ def run(args: argparse.Namespace) -> int:
                        max_condition_size=args.max_condition_size, targets=args.targets,
                        test=args.test, collider_rule=args.collider_rule, seed=args.seed,
                        progress=bars, **inputs.options)
+    if result.run.get("notice"):
+        from rich.markup import escape
+
+        console.print(f"[yellow]note:[/yellow] {escape(result.run['notice'])}", highlight=False,
+                      soft_wrap=True)
     result.print(console)
     print_files(Path(args.out), console)
     return 0

@@ -15,8 +15,10 @@ from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Iterator
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import networkx as nx
+if TYPE_CHECKING:  # networkx is imported where a conversion needs it
+    import networkx as nx
 
 __all__ = ["PDAG", "InterventionNode"]
 
@@ -152,6 +154,8 @@ class PDAG:
 
     def is_dag(self) -> bool:
         """True if there is no undirected edge and the directed edges form no cycle."""
+        import networkx as nx
+
         return not any(self._ne.values()) and nx.is_directed_acyclic_graph(self.directed_graph())
 
     # -- copies and conversions ---------------------------------------------------------
@@ -177,6 +181,8 @@ class PDAG:
 
     def directed_graph(self) -> nx.DiGraph:
         """The directed part as a networkx DiGraph over all nodes."""
+        import networkx as nx
+
         d = nx.DiGraph()
         d.add_nodes_from(self._order)
         d.add_edges_from(self.directed_edges())
@@ -184,6 +190,8 @@ class PDAG:
 
     def undirected_graph(self) -> nx.Graph:
         """The undirected part as a networkx Graph over all nodes."""
+        import networkx as nx
+
         u = nx.Graph()
         u.add_nodes_from(self._order)
         u.add_edges_from(self.undirected_edges())
@@ -191,6 +199,7 @@ class PDAG:
 
     def skeleton(self) -> nx.Graph:
         """All adjacencies, ignoring direction."""
+
         s = self.undirected_graph()
         s.add_edges_from(self.directed_edges())
         return s
@@ -200,6 +209,8 @@ class PDAG:
 
         Every arc carries ``orientation`` = ``"directed"`` or ``"undirected"``.
         """
+        import networkx as nx
+
         d = nx.DiGraph()
         d.add_nodes_from(self._order)
         for u, v in self.directed_edges():
@@ -215,6 +226,7 @@ class PDAG:
 
         An undirected ``nx.Graph`` gives a graph with every edge undirected.
         """
+
         p = cls(g.nodes)
         if not g.is_directed():
             for u, v in g.edges:

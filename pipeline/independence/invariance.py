@@ -63,9 +63,9 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 from scipy.special import fdtr, fdtrc
 
 from pipeline.design import Design
@@ -81,6 +81,9 @@ from pipeline.independence.fisher_z import (
 )
 from pipeline.independence.multiplicity import benjamini_hochberg
 from pipeline.stats.moments import Moments, merge_moments
+
+if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
+    import pandas as pd
 
 __all__ = ["KURTOSIS_MARGIN", "invariance_test", "regime_pair", "response_matrix",
            "ResponseMatrix", "standardized_difference"]
@@ -296,6 +299,8 @@ class ResponseMatrix:
 
     def to_frame(self) -> pd.DataFrame:
         """Long format: one row per (regime, variable)."""
+        import pandas as pd
+
         r, p = len(self.regimes), len(self.variables)
         return pd.DataFrame({
             "regime": np.repeat(np.asarray(self.regimes, dtype=object), p),

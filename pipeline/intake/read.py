@@ -25,7 +25,6 @@ import dataclasses
 import threading
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -33,6 +32,7 @@ import numpy as np
 from pipeline.design import Design
 from pipeline.errors import InputError, nearest_names
 from pipeline.intake.checks import check_statistics
+from pipeline.intake.record import Intake
 from pipeline.intake.regimes import read_regimes
 from pipeline.intake.tables import (
     ReadOptions,
@@ -49,51 +49,9 @@ from pipeline.options import TESTS
 from pipeline.stats.accumulate import MomentAccumulator
 from pipeline.stats.fingerprint import _fingerprint, statistics_options
 from pipeline.stats.moments import Moments
-from pipeline.stats.ranks import rank_moments
 
 __all__ = ["Intake", "read_inputs", "TESTS"]
 
-
-
-@dataclass
-class Intake:
-    """What the intake read: design, per-regime statistics, fingerprint, notes.
-
-    Attributes
-    ----------
-    design : Design
-        Variables in data column order (first file); regimes in regimes-file order with
-        their sample counts.
-    moments : Moments
-        Per-regime statistics, regimes in the order of ``design.regimes``.
-    fingerprint : str
-        Content hash of the input bytes and the options that change the statistics.
-    dropped_rows : int
-        Rows dropped for missing values (``drop_missing``).
-    warnings : list of str
-    """
-
-    design: Design
-    moments: Moments
-    fingerprint: str
-    dropped_rows: int = 0
-    warnings: list[str] = field(default_factory=list)
-
-    def summary(self) -> str:
-        """A plain-text table: samples and targets per regime, then the warnings."""
-        rows = [("regime", "samples", "targets", "role")]
-        for r in self.design.regimes:
-            role = "reference" if r.reference else ("targets unknown" if not r.known
-                                                     else "intervention")
-            rows.append((r.name, str(r.samples), ";".join(r.targets) or "-", role))
-        widths = [max(len(row[i]) for row in rows) for i in range(4)]
-        lines = [f"{len(self.design.variables)} variables, "
-                 f"{int(self.moments.count.sum())} samples, {len(self.design.regimes)} regimes"
-                 + (f" ({self.dropped_rows} rows dropped)" if self.dropped_rows else "")]
-        lines += ["  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip()
-                  for row in rows]
-        lines += [f"warning: {w}" for w in self.warnings]
-        return "\n".join(lines)
 
 
 def _check_arguments(data, regimes, regime_column, ignore_columns, test, chunk_rows):
@@ -345,5 +303,7 @@ class _Pass:
             values = np.concatenate([v for _, v in self.kept]) if self.kept \
                 else np.zeros((0, p))
             self.kept = []
+            from pipeline.stats.ranks import rank_moments  # scipy: only for --test rank
+
             return rank_moments(codes, values, self.variables, self.names, self.reference)
         return self.acc.result()

@@ -23,13 +23,14 @@ import numpy as np
 
 from pipeline.errors import InputError, nearest_names
 from pipeline.intake import formats
-from pipeline.intake.formats.base import (
+from pipeline.intake.formats.base import NA_STRINGS, Chunk, TableHeader
+from pipeline.intake.reading import (
     DECIMALS,
-    NA_STRINGS,
     REGIME_SOURCES,
-    Chunk,
     ReadOptions,
-    TableHeader,
+    read_genes,
+    read_options,
+    reading_of,
 )
 
 __all__ = ["SUFFIXES", "NA_STRINGS", "DECIMALS", "REGIME_SOURCES", "ReadOptions", "TableHeader",
@@ -77,32 +78,6 @@ def read_header(path: Path, options: ReadOptions | None = None) -> TableHeader:
         raise InputError(f"data file {path}: column name(s) {', '.join(dup)} appear more than "
                          f"once in the header; give every column its own name")
     return header
-
-
-def read_genes(path: str | Path) -> tuple[str, ...]:
-    """The names listed in a genes file: one per line; blank lines and ``#`` comments skipped.
-
-    Raises
-    ------
-    InputError
-        The file is missing, not UTF-8, lists no name, or lists a name twice.
-    """
-    p = Path(path)
-    if not p.is_file():
-        raise InputError(f"--genes {p}: no such file; name a text file with one gene (variable) "
-                         f"name per line")
-    try:
-        lines = p.read_text(encoding="utf-8-sig").splitlines()
-    except UnicodeDecodeError:
-        raise InputError(f"--genes {p}: is not UTF-8 text; save it as UTF-8") from None
-    names = [ln.strip() for ln in lines if ln.strip() and not ln.lstrip().startswith("#")]
-    if not names:
-        raise InputError(f"--genes {p}: lists no name; write one gene (variable) name per line")
-    dup = sorted({g for g in names if names.count(g) > 1})
-    if dup:
-        raise InputError(f"--genes {p}: {', '.join(dup[:10])} listed more than once; list each "
-                         f"gene once")
-    return tuple(names)
 
 
 def _variables_of(h: TableHeader, skip: set[str]) -> list[str]:
@@ -260,42 +235,3 @@ def iter_chunks(header: TableHeader, variables: Sequence[str], regime_column: st
         yield Chunk(chunk.start, [stem], np.zeros(n, dtype=np.int64), chunk.values)
 
 
-def read_options(*, decimal: str = ".", regime_from: str = "column", sheet: str | None = None,
-                 genes: str | Path | Sequence[str] | None = None) -> ReadOptions:
-    """Check the reading options and return them; `genes` may be a genes file or names.
-
-    Raises
-    ------
-    InputError
-        A value that is not one of the choices (named, with the choices), a genes file
-        that cannot be used.
-    """
-    if decimal not in DECIMALS:
-        raise InputError(f"--decimal {decimal!r}: expected '.' (1.25) or ',' (1,25)")
-    if regime_from not in REGIME_SOURCES:
-        raise InputError(f"--regime-from {regime_from!r}: not a choice"
-                         f"{nearest_names(str(regime_from), REGIME_SOURCES)}; use column (the "
-                         f"--regime-column of the data) or filename (each file is one regime)")
-    if sheet is not None and (not isinstance(sheet, str) or not sheet):
-        raise InputError(f"--sheet {sheet!r}: expected the name of a worksheet")
-    names = None
-    if isinstance(genes, (str, Path)):
-        names = read_genes(genes)
-    elif genes is not None:
-        names = tuple(str(g).strip() for g in genes if str(g).strip())
-        if not names:
-            raise InputError("genes: the list of genes is empty; name at least one variable")
-        dup = sorted({g for g in names if names.count(g) > 1})
-        if dup:
-            raise InputError(f"genes: {', '.join(dup[:10])} listed more than once")
-    return ReadOptions(decimal=decimal, regime_from=regime_from, sheet=sheet, genes=names)
-
-
-def reading_of(decimal: str | None = None, regime_from: str | None = None,
-               sheet: str | None = None,
-               genes: str | Path | Sequence[str] | None = None) -> ReadOptions:
-    """The reading options, checked; None takes the default."""
-    base = ReadOptions()
-    given = {"decimal": decimal, "regime_from": regime_from, "sheet": sheet, "genes": genes}
-    values = {k: getattr(base, k) if v is None else v for k, v in given.items()}
-    return read_options(**values)

@@ -3,27 +3,36 @@
 `learn_graph` learns the interventional essential graph from a `Tester` and returns a
 `Learned` result with the evidence of every decision; `DSeparationTester` answers the
 tests from d-separation in a known DAG (the oracle the learner is checked against).
+
+Names are imported on first use, so that importing one module of the package does not
+import the others (the command line starts faster).
 """
 
-from pipeline.learner.evidence import (
-    Conflict,
-    KeptPair,
-    Learned,
-    RemovedPair,
-    TargetFinding,
-)
-from pipeline.learner.oracle import DSeparationTester
-from pipeline.learner.orient import COLLIDER_RULES
-from pipeline.learner.pc import TARGET_MODES, learn_graph
+from __future__ import annotations
 
-__all__ = [
-    "learn_graph",
-    "Learned",
-    "RemovedPair",
-    "KeptPair",
-    "TargetFinding",
-    "Conflict",
-    "DSeparationTester",
-    "COLLIDER_RULES",
-    "TARGET_MODES",
-]
+import importlib
+from typing import Any
+
+_WHERE = {
+    "learn_graph": "pipeline.learner.pc",
+    "Learned": "pipeline.learner.evidence",
+    "RemovedPair": "pipeline.learner.evidence",
+    "KeptPair": "pipeline.learner.evidence",
+    "TargetFinding": "pipeline.learner.evidence",
+    "Conflict": "pipeline.learner.evidence",
+    "DSeparationTester": "pipeline.learner.oracle",
+    "COLLIDER_RULES": "pipeline.options",
+    "TARGET_MODES": "pipeline.options",
+}
+
+__all__ = list(_WHERE)
+
+
+def __getattr__(name: str) -> Any:
+    if name in _WHERE:
+        return getattr(importlib.import_module(_WHERE[name]), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(list(globals()) + __all__)

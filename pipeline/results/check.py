@@ -12,10 +12,9 @@ from __future__ import annotations
 import io
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 from rich import box
 from rich.console import Console
 from rich.markup import escape
@@ -31,6 +30,9 @@ from pipeline.results.formatting import (
     json_matrix,
     short_shift,
 )
+
+if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
+    import pandas as pd
 
 __all__ = ["FORMAT", "MOVED", "MOVED_GIVEN", "NOT_MOVED", "TargetCheck", "ControlAgreement",
            "DistributionShape", "CheckResult"]
@@ -123,6 +125,8 @@ class ControlAgreement:
 
     def to_frame(self) -> pd.DataFrame:
         """Long format: control, variable, shift, statistic, pvalue, adjusted."""
+        import pandas as pd
+
         c, p = len(self.regimes), len(self.variables)
         return pd.DataFrame({
             "control": np.repeat(np.asarray(self.regimes, dtype=object), p),
@@ -199,9 +203,22 @@ class CheckResult:
 
     def target_frame(self) -> pd.DataFrame:
         """One row per checked target (the fields of `TargetCheck`)."""
+        import pandas as pd
+
         cols = ["regime", "target", "known", "shift", "sd_ratio", "pvalue", "adjusted",
                 "conditional_pvalue", "given", "verdict"]
         return pd.DataFrame([[getattr(t, c) for c in cols] for t in self.targets], columns=cols)
+
+    def response_csv(self) -> str:
+        """``response.csv``: regime, variable, shift, sd_ratio, pvalue, adjusted (one row per
+        pair; floats in their shortest exact form), written without building a table."""
+        from pipeline.results.tables import csv_text
+
+        r = self.response
+        rows = ((reg, var, float(r.shift[i, j]), float(r.sd_ratio[i, j]),
+                 float(r.pvalue[i, j]), float(r.adjusted[i, j]))
+                for i, reg in enumerate(r.regimes) for j, var in enumerate(r.variables))
+        return csv_text(("regime", "variable", "shift", "sd_ratio", "pvalue", "adjusted"), rows)
 
     def response_frame(self) -> pd.DataFrame:
         """The response matrix in long format: regime, variable, shift, sd_ratio, p, adjusted."""
@@ -292,7 +309,7 @@ class CheckResult:
         from pipeline.fileio import write_json, write_text
 
         folder = Path(folder)
-        csv = self.response_frame().to_csv(index=False, lineterminator="\n")
+        csv = self.response_csv()
         return {"check.json": write_json(folder / "check.json", self.to_dict()),
                 "response.csv": write_text(folder / "response.csv", csv)}
 

@@ -52,8 +52,7 @@ def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
     if result.check is not None:
         texts["check.json"] = json.dumps(result.check.to_dict(), indent=2,
                                          allow_nan=False) + "\n"
-        texts["response.csv"] = result.check.response_frame().to_csv(index=False,
-                                                                     lineterminator="\n")
+        texts["response.csv"] = result.check.response_csv()
     texts["report.html"] = render_report(record, result.check)
     # 2. move the files of the earlier run aside, 3. write each file atomically
     archive_previous(folder)

@@ -13,10 +13,9 @@ import io
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import networkx as nx
-import pandas as pd
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
@@ -27,6 +26,9 @@ from pipeline.learner.evidence import Learned
 from pipeline.results.formatting import format_count, format_p
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.results.tables import edge_records, edges_frame, removed_frame
+
+if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
+    import pandas as pd
 
 __all__ = ["LearnResult"]
 

@@ -16,14 +16,16 @@ import io
 import math
 import re
 from collections.abc import Iterable
-
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from pipeline.design import Design
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.learner.evidence import Learned
 from pipeline.results.explain import explain_edges
 from pipeline.results.schema import EdgeRecord
+
+if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
+    import pandas as pd
 
 __all__ = ["EDGE_COLUMNS", "REMOVED_COLUMNS", "edge_records", "edges_frame", "removed_frame",
            "edges_csv", "removed_csv", "to_csv"]
@@ -136,6 +138,8 @@ def _finite(chain: list[dict]) -> list[dict]:
 
 def edges_frame(records: Iterable[EdgeRecord]) -> pd.DataFrame:
     """The edge records as a table (columns `EDGE_COLUMNS`; `via`, `notes` hold lists)."""
+    import pandas as pd
+
     rows = [{c: getattr(r, c) for c in EDGE_COLUMNS} for r in records]
     frame = pd.DataFrame(rows, columns=list(EDGE_COLUMNS))
     for c in ("p_adjacency", "p_orientation", "bootstrap_adjacency", "bootstrap_orientation"):
@@ -150,6 +154,8 @@ def removed_frame(learned: Learned) -> pd.DataFrame:
     Columns `REMOVED_COLUMNS`; `separating_set` and `notes` hold lists; `regime` names
     the regime when `x` is an intervention node (``F[regime]``), else it is empty.
     """
+    import pandas as pd
+
     rows = [{"x": r.x, "y": r.y, "separating_set": list(r.separating_set),
              "pvalue": _num(r.pvalue), "statistic": _num(r.statistic), "level": int(r.level),
              "regime": r.regime or "", "notes": list(r.notes)}
@@ -174,6 +180,11 @@ def _cell(v: object) -> object:
     if v is None or (isinstance(v, float) and v != v):
         return ""
     return v
+
+
+def csv_text(header: Iterable[str], rows: Iterable[Iterable[object]]) -> str:
+    """CSV text: list cells joined by ``;``, None and NaN as empty cells, floats exact."""
+    return _csv(header, rows)
 
 
 def _csv(header: Iterable[str], rows: Iterable[Iterable[object]]) -> str:

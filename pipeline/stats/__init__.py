@@ -1,8 +1,29 @@
-"""Sufficient statistics: the only thing the tests read."""
+"""Sufficient statistics: the only thing the tests read.
 
-from pipeline.stats.accumulate import MomentAccumulator
-from pipeline.stats.fingerprint import fingerprint_inputs
-from pipeline.stats.moments import Moments
-from pipeline.stats.ranks import normal_scores
+Names are imported on first use, so that importing one module of the package does not
+import the others (the command line starts faster).
+"""
 
-__all__ = ["Moments", "MomentAccumulator", "normal_scores", "fingerprint_inputs"]
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+_WHERE = {
+    "Moments": "pipeline.stats.moments",
+    "MomentAccumulator": "pipeline.stats.accumulate",
+    "normal_scores": "pipeline.stats.ranks",
+    "fingerprint_inputs": "pipeline.stats.fingerprint",
+}
+
+__all__ = list(_WHERE)
+
+
+def __getattr__(name: str) -> Any:
+    if name in _WHERE:
+        return getattr(importlib.import_module(_WHERE[name]), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(list(globals()) + __all__)

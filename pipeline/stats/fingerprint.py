@@ -63,18 +63,32 @@ class _Stopped(Exception):
     """Hashing was abandoned (the caller failed and no longer needs the fingerprint)."""
 
 
+#: SHA-256 of each file hashed here, by (resolved path, size, modification time): the
+#: provenance of a result names the same hashes without reading the bytes again.
+FILE_HASHES: dict[tuple[str, int, int], str] = {}
+
+
+def file_key(path: Path) -> tuple[str, int, int]:
+    """The key of `path` in `FILE_HASHES` (raises OSError if it cannot be read)."""
+    st = path.stat()
+    return (str(path.resolve()), int(st.st_size), int(st.st_mtime_ns))
+
+
 def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
     try:
-        size = path.stat().st_size
+        key = file_key(path)
         fh = open(path, "rb")  # noqa: SIM115 - read-only, closed below
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
+    alone = hashlib.sha256()
     with fh:
-        h.update(role + b"\0" + str(size).encode() + b"\0")
+        h.update(role + b"\0" + str(key[1]).encode() + b"\0")
         while block := fh.read(_BLOCK):
             if stop is not None and stop.is_set():
                 raise _Stopped
             h.update(block)
+            alone.update(block)
+    FILE_HASHES[key] = alone.hexdigest()
 
 
 def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
@@ -95,7 +109,7 @@ def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
         If a file cannot be read, or a reading option is wrong (`genes` may name a genes
         file, read here).
     """
-    from pipeline.intake.tables import reading_of
+    from pipeline.intake.reading import reading_of
 
     r = reading_of(decimal, regime_from, sheet, genes)
     options = statistics_options(regime_column=regime_column, ignore_columns=ignore_columns,

@@ -27,6 +27,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.intake.reading import DECIMALS, REGIME_SOURCES, ReadOptions
 
 __all__ = ["NA_STRINGS", "DECIMALS", "REGIME_SOURCES", "ReadOptions", "TableHeader", "Chunk",
            "Reader", "encode_labels", "labels_of", "numeric_block", "cell_text"]
@@ -35,38 +36,9 @@ __all__ = ["NA_STRINGS", "DECIMALS", "REGIME_SOURCES", "ReadOptions", "TableHead
 NA_STRINGS = ("", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
               "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null")
 
-#: Values of the ``decimal`` option: the decimal mark of numbers written as text.
-DECIMALS = (".", ",")
-
-#: Values of the ``regime_from`` option: a column of the data, or the name of each file.
-REGIME_SOURCES = ("column", "filename")
 
 # a number written with a decimal comma: 1,25  -0,5  ,75  3,1e-4
 _DECIMAL_COMMA = re.compile(r"^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$")
-
-
-@dataclass(frozen=True)
-class ReadOptions:
-    """How to read the measurement files (each option changes the statistics).
-
-    Attributes
-    ----------
-    decimal : {".", ","}
-        Decimal mark of numbers written as text (CSV, TSV, text cells of a sheet).
-    regime_from : {"column", "filename"}
-        Where the regime of a row comes from: the regime column, or the file's name
-        (its stem: ``ko_A.csv.gz`` is regime ``ko_A``).
-    sheet : str or None
-        The worksheet of ``.xlsx`` workbooks (needed when a workbook has several).
-    genes : tuple of str or None
-        The variables to analyse, in this order (None: every column but the regime
-        column and the ignored ones).
-    """
-
-    decimal: str = "."
-    regime_from: str = "column"
-    sheet: str | None = None
-    genes: tuple[str, ...] | None = None
 
 
 @dataclass(frozen=True)

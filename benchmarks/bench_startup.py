@@ -1,0 +1,87 @@
+"""Benchmark: how fast the command line answers, and a rerun against a cold run, as a user sees it.
+
+Every figure is the wall time of a fresh ``orienteer`` process (``python -m pipeline``),
+start-up and imports included, median of several runs:
+
+1. ``orienteer --version``, ``orienteer --help`` and ``orienteer learn --help`` (goal:
+   under 0.3 s: the parser is built without importing the numerical stack);
+2. ``orienteer learn`` on a 132,000-row, 30-variable CSV file (simulated: a control and
+   21 single-target knockdowns of 6,000 rows), cold into a fresh folder, then again into
+   the same folder at a new alpha (statistics and earlier tests from ``tests.sqlite``;
+   goal: at least 5 times faster than the cold run).
+
+Run from the repository root::
+
+    python benchmarks/bench_startup.py
+    python benchmarks/bench_startup.py --runs 3 --no-append
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from _common import append_results, load_average, machine
+
+from pipeline.simulation import simulate
+
+ORIENTEER = [sys.executable, "-m", "pipeline"]
+
+
+def wall(args: list[str]) -> float:
+    """Seconds of one ``orienteer`` process; raises if it fails."""
+    started = time.perf_counter()
+    subprocess.run(ORIENTEER + args, check=True, stdout=subprocess.DEVNULL,
+                   stderr=subprocess.DEVNULL)
+    return time.perf_counter() - started
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--runs", type=int, default=5, help="runs per figure (median)")
+    parser.add_argument("--no-append", action="store_true", help="print only")
+    args = parser.parse_args(argv)
+    load = load_average()
+    rows = []
+    for words in (["--version"], ["--help"], ["learn", "--help"]):
+        times = [wall(words) for _ in range(args.runs)]
+        rows.append((f"`orienteer {' '.join(words)}`", statistics.median(times), ""))
+    with tempfile.TemporaryDirectory(prefix="orienteer-startup-") as tmp:
+        tmp = Path(tmp)
+        sim = simulate(nodes=30, degree=2.0, regimes=21, samples=6000, seed=3)
+        sim.save(tmp / "data")
+        data, regimes = tmp / "data" / "data.csv", tmp / "data" / "regimes.csv"
+        mb = data.stat().st_size / 2**20
+        cold, rerun = [], []
+        for i in range(args.runs):
+            out = tmp / f"out{i}"
+            base = ["learn", str(data), "--regimes", str(regimes), "--out", str(out)]
+            cold.append(wall(base + ["--alpha", "0.01"]))
+            rerun.append(wall(base + ["--alpha", f"{0.005 / (i + 1):.6f}"]))
+        c, r = statistics.median(cold), statistics.median(rerun)
+        rows.append((f"cold `learn`, {len(sim.data):,} rows x 30 variables ({mb:.0f} MB)", c,
+                     ""))
+        rows.append(("rerun into the same `--out` at a new alpha", r, f"{c / r:.1f}x faster"))
+    when = datetime.datetime.now().strftime("%Y-%m-%d %H:%M")
+    command = " ".join(["python benchmarks/bench_startup.py", *sys.argv[1:]])
+    lines = [f"## bench_startup: the command line as a user times it ({when})", "",
+             f"- machine: {machine('numpy')}; load average at start: {load}",
+             f"- command: `{command}`",
+             f"- wall time of a fresh process, start-up included; median of {args.runs} runs",
+             "", "| what | median wall s | |", "|---|---|---|"]
+    lines += [f"| {what} | {t:.3f} | {note} |" for what, t, note in rows]
+    text = "\n".join(lines) + "\n"
+    print(text)
+    if not args.no_append:
+        print(f"appended to {append_results(text).name}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
