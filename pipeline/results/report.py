@@ -26,8 +26,9 @@ CAUTIONS = (
     "The graph is learned under causal sufficiency (no unmeasured common cause of two "
     "measured variables) and faithfulness (every independence in the data comes from the "
     "graph). A hidden confounder or cancelling pathways can add, remove or turn edges.",
-    "The tests assume linear relations and Gaussian noise (or, with --test rank, a "
-    "monotone transform of them). Strongly non-linear relations may be missed.",
+    "The tests assume linear relations within each regime; they allow for heavy-tailed or "
+    "skewed noise (the invariance test corrects for the tails) and, with --test rank, for any "
+    "increasing transform of each variable. Strongly non-linear relations may be missed.",
     "Each edge is a hypothesis with the evidence shown beside it. The results guide the "
     "next experiments; they do not replace experimental validation.",
     "Not for clinical use or any decision about a patient.",
