@@ -13,8 +13,7 @@ Names are imported lazily so that ``import pipeline`` stays fast.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from pipeline.lazy import lazy_exports
 
 __all__ = [
     "learn",
@@ -44,12 +43,4 @@ _WHERE = {
     "PDAG": "pipeline.graphs.pdag",
 }
 
-
-def __getattr__(name: str) -> Any:
-    if name in _WHERE:
-        return getattr(importlib.import_module(_WHERE[name]), name)
-    raise AttributeError(f"module 'pipeline' has no attribute {name!r}")
-
-
-def __dir__() -> list[str]:
-    return sorted(list(globals()) + __all__)
+__getattr__, __dir__ = lazy_exports(__name__, _WHERE, globals())

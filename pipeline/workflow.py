@@ -42,6 +42,7 @@ from pipeline.options import (
 from pipeline.stats.moments import Moments
 
 if TYPE_CHECKING:  # imported where a result is made: the output layer pulls in pandas
+    from pipeline.intake.record import Intake
     from pipeline.results.learn import LearnResult
 
 __all__ = ["learn", "learn_from_moments", "TARGET_MODES", "TESTS", "COLLIDER_RULES",
@@ -136,7 +137,6 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     ignore = split_names(ignore_columns)
     started = time.perf_counter()
 
-    from pipeline.intake.record import Intake
     from pipeline.stats.fingerprint import fingerprint_inputs
 
     # 1. the fingerprint: raw bytes and the options that change the statistics
@@ -148,28 +148,9 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
 
     # 2. statistics from the store, or read once and stored (the store file is created
     #    only once the inputs have been read without error: no partial output)
-    from pipeline.independence.store import TestStore
-
-    store_path = Path(out) / STORE_NAME if out is not None else None
-    store = TestStore(store_path) if store_path is not None and store_path.is_file() else None
+    intake, store, from_store, notice = inputs_through_store(
+        paths, regimes_path, out, fingerprint, options, progress)
     try:
-        stored = store.get_inputs(fingerprint) if store is not None else None
-        notice = _changed_inputs(store, fingerprint, out) if stored is None else None
-        if stored is not None:
-            intake = Intake(stored.design, stored.moments, fingerprint, stored.dropped_rows,
-                            list(stored.warnings))
-        else:
-            from pipeline.progress import Progress
-
-            show = progress.enabled if isinstance(progress, Progress) else progress is True
-            from pipeline.intake.read import read_inputs
-
-            intake = read_inputs(paths, regimes_path, progress=show, fingerprint=fingerprint,
-                                 **options)
-            if store_path is not None:
-                store = store or TestStore(store_path)
-                store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,
-                                 intake.dropped_rows)
         settings = {"alpha": alpha, "max_condition_size": max_k, "targets": targets,
                     "test": test, "collider_rule": collider_rule, "reference": reference,
                     "regime_column": regime_column, "ignore_columns": list(ignore),
@@ -182,7 +163,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                             fingerprint=fingerprint, alpha=alpha, max_condition_size=max_k,
                             targets=targets, collider_rule=collider_rule, settings=settings,
                             progress=progress, check=True)
-            result.run["from_store"] = stored is not None
+            result.run["from_store"] = from_store
             if notice:
                 result.run["notice"] = notice
             result.run["seconds"] = time.perf_counter() - started
@@ -198,6 +179,50 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         if store is not None:
             store.close()
     return result
+
+
+def inputs_through_store(paths: list[Path], regimes_path: Path, out: str | Path | None,
+                         fingerprint: str, options: dict[str, Any], progress: ProgressArg,
+                         before_store: Callable[[Intake], None] | None = None):
+    """The inputs' design and statistics: from ``out/tests.sqlite`` when it holds them under
+    `fingerprint`, else read from the files (and kept in the store when `out` is given).
+
+    `before_store` is called with the intake before a new store file is created, so a
+    check that fails leaves no file behind. Returns ``(intake, store, from_store,
+    notice)``; the caller closes `store` (None without `out`); `notice` is one line when
+    the last run in `out` read other inputs.
+    """
+    from pipeline.independence.store import TestStore
+    from pipeline.intake.record import Intake
+
+    store_path = Path(out) / STORE_NAME if out is not None else None
+    store = TestStore(store_path) if store_path is not None and store_path.is_file() else None
+    try:
+        stored = store.get_inputs(fingerprint) if store is not None else None
+        notice = _changed_inputs(store, fingerprint, out) if stored is None else None
+        if stored is not None:
+            intake = Intake(stored.design, stored.moments, fingerprint, stored.dropped_rows,
+                            list(stored.warnings))
+            if before_store is not None:
+                before_store(intake)
+            return intake, store, True, None
+        from pipeline.intake.read import read_inputs
+        from pipeline.progress import Progress
+
+        show = progress.enabled if isinstance(progress, Progress) else progress is True
+        intake = read_inputs(paths, regimes_path, progress=show, fingerprint=fingerprint,
+                             **options)
+        if before_store is not None:
+            before_store(intake)
+        if store_path is not None:
+            store = store or TestStore(store_path)
+            store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,
+                             intake.dropped_rows)
+        return intake, store, False, notice
+    except BaseException:
+        if store is not None:
+            store.close()
+        raise
 
 
 def _changed_inputs(store, fingerprint: str, out) -> str | None:

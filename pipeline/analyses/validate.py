@@ -459,11 +459,9 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     if split_names(holdout) and holdout_all:
         raise InputError(f"--holdout {','.join(split_names(holdout))} and --holdout-all: give "
                          "one of them")
-    from pipeline.independence.store import TestStore
-    from pipeline.intake.read import read_inputs
     from pipeline.intake.reading import reading_of
     from pipeline.stats.fingerprint import fingerprint_inputs
-    from pipeline.workflow import STORE_NAME
+    from pipeline.workflow import inputs_through_store
 
     ignore = split_names(ignore_columns)
     reading = reading_of(decimal, regime_from, sheet, genes)
@@ -472,24 +470,12 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                    decimal=reading.decimal, regime_from=reading.regime_from,
                    sheet=reading.sheet, genes=reading.genes)
     fingerprint = fingerprint_inputs(paths, regimes_path, **options)
-    store_path = Path(out) / STORE_NAME if out is not None else None
-    store = TestStore(store_path) if store_path is not None and store_path.is_file() else None
+    # the held-out regimes are checked before any file is created
+    intake, store, _, _ = inputs_through_store(
+        paths, regimes_path, out, fingerprint, options, progress,
+        before_store=lambda i: resolve_holdout(i.design, holdout, holdout_all))
+    design, moments, warnings = intake.design, intake.moments, list(intake.warnings)
     try:
-        stored = store.get_inputs(fingerprint) if store is not None else None
-        if stored is not None:
-            design, moments, warnings = stored.design, stored.moments, list(stored.warnings)
-        else:
-            from pipeline.progress import Progress
-
-            show = progress.enabled if isinstance(progress, Progress) else progress is True
-            intake = read_inputs(paths, regimes_path, progress=show,
-                                 fingerprint=fingerprint, **options)
-            design, moments, warnings = intake.design, intake.moments, list(intake.warnings)
-        resolve_holdout(design, holdout, holdout_all)  # before any file is created
-        if store_path is not None and stored is None:
-            store = store or TestStore(store_path)
-            store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,
-                             intake.dropped_rows)
         result = validate_from_moments(
             design, moments, holdout=holdout, alpha=alpha, min_shift=min_shift,
             max_condition_size=max_condition_size, targets=targets,

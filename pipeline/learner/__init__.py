@@ -10,8 +10,7 @@ import the others (the command line starts faster).
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from pipeline.lazy import lazy_exports
 
 _WHERE = {
     "learn_graph": "pipeline.learner.pc",
@@ -27,12 +26,4 @@ _WHERE = {
 
 __all__ = list(_WHERE)
 
-
-def __getattr__(name: str) -> Any:
-    if name in _WHERE:
-        return getattr(importlib.import_module(_WHERE[name]), name)
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
-
-def __dir__() -> list[str]:
-    return sorted(list(globals()) + __all__)
+__getattr__, __dir__ = lazy_exports(__name__, _WHERE, globals())
