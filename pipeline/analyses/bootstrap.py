@@ -234,7 +234,9 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
         import multiprocessing
         from concurrent.futures import ProcessPoolExecutor, as_completed
 
+        # workers fork from a server process that has imported the learner once
         context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["pipeline.workflow", "pipeline.analyses.bootstrap"])
         with ProcessPoolExecutor(max_workers=min(jobs, resamples), mp_context=context) as pool:
             futures = [pool.submit(_relearn, t) for t in tasks]
             del tasks
