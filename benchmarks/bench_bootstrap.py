@@ -7,6 +7,8 @@ main learn is cold every time). Printed and appended to benchmarks/RESULTS.md:
 
 - wall time medians: plain learn, the one-pass resampled statistics alone, and the whole
   learn with the bootstrap at 1 and 2 jobs (with the speed-up of 2 jobs);
+- the CPU seconds the relearning took (summed over the worker processes): with other work
+  on the machine, CPU against wall time shows how much of the 2 cores the run could get;
 - whether 1 and 2 jobs gave the same frequencies (they must);
 - the mean bootstrap adjacency of the true and of the false edges of the result, and of
   all true and all other pairs (against the simulated truth).
@@ -44,6 +46,8 @@ def _timed(fn):
     return time.perf_counter() - t, value
 
 
+
+
 def run(nodes: int, regimes: int, samples: int, resamples: int, repeats: int, seed: int,
         alpha: float) -> list[str]:
     tmp = Path(tempfile.mkdtemp(prefix="bench-bootstrap-"))
@@ -53,6 +57,7 @@ def run(nodes: int, regimes: int, samples: int, resamples: int, repeats: int, se
         sim.save(tmp / "inputs")
         data, regs = tmp / "inputs" / "data.csv", tmp / "inputs" / "regimes.csv"
         times: dict[str, list[float]] = {"plain": [], "moments": [], "1": [], "2": []}
+        cpu: dict[str, list[float]] = {"1": [], "2": []}
         results = {}
         intake = read_inputs([data], regs)
         learn(data, regs, out=tmp / "warm-up", alpha=alpha)  # imports and caches, not timed
@@ -66,6 +71,7 @@ def run(nodes: int, regimes: int, samples: int, resamples: int, repeats: int, se
                 t, res = _timed(lambda r=r, jobs=jobs: learn(
                     data, regs, out=tmp / f"b{jobs}_{r}", alpha=alpha, bootstrap=resamples,
                     seed=seed, jobs=jobs))
+                cpu[str(jobs)].append(res.bootstrap.cpu_seconds)
                 times[str(jobs)].append(t)
                 results[jobs] = res
         same = [(e.source, e.target, e.bootstrap_adjacency, e.bootstrap_orientation)
@@ -99,9 +105,12 @@ def run(nodes: int, regimes: int, samples: int, resamples: int, repeats: int, se
         f"| resampled statistics of {resamples} resamples, one pass | {med['moments']:.2f} | "
         f"part of the runs below |",
         f"| learn --bootstrap {resamples} --jobs 1 | {med['1']:.2f} | "
-        f"{(med['1'] - med['plain']) / resamples:.2f} s per resample |",
+        f"{(med['1'] - med['plain']) / resamples:.2f} s per resample; relearning CPU "
+        f"{statistics.median(cpu['1']):.1f} s |",
         f"| learn --bootstrap {resamples} --jobs 2 | {med['2']:.2f} | "
-        f"{med['1'] / med['2']:.2f}x the speed of 1 job; same frequencies as 1 job: {same} |",
+        f"{med['1'] / med['2']:.2f}x the speed of 1 job; relearning CPU "
+        f"{statistics.median(cpu['2']):.1f} s (both workers); same frequencies as 1 job: "
+        f"{same} |",
         "",
         f"mean bootstrap adjacency: true edges of the result {mean(found_true)} "
         f"({len(found_true)}), false edges of the result {mean(found_false)} "

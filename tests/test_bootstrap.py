@@ -105,6 +105,16 @@ def test_true_edges_are_more_stable_than_false_ones(tmp_path):
     assert np.mean(true_pairs) > np.mean(other_pairs)
 
 
+def test_progress_over_the_resamples(files):
+    data, regimes = files
+    seen = []
+    learn(data, regimes, alpha=0.05, bootstrap=3, seed=2,
+          progress=lambda label, done, total: seen.append((label, done, total)))
+    steps = [(d, t) for label, d, t in seen if label == "bootstrap: relearning"]
+    assert steps == [(0, 3), (1, 3), (2, 3), (3, 3)]
+    assert any(label == "bootstrap: reading data" and d == t for label, d, t in seen)
+
+
 def test_frequencies_from_counts():
     # hand-made counts over A, B, C of 10 resamples: A-B adjacent 8 times (A -> B 6, B -> A 1,
     # undirected 1); B-C 3 times, all undirected

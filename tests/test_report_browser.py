@@ -14,8 +14,8 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
-
 from browser import chromium, dump_dom, screenshot
+
 from pipeline.analyses.sweep import sweep
 from pipeline.results.files import refresh_report
 from pipeline.simulation import simulate

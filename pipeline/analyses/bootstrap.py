@@ -140,11 +140,15 @@ def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Mome
                          f"learn again without the store") from None
 
 
-def _relearn(task: tuple) -> tuple[int, np.ndarray]:
-    """Learn one resample; return its index and its edges as rows ``(i, j, code)``.
+def _relearn(task: tuple) -> tuple[int, np.ndarray, float]:
+    """Learn one resample; return its index, its edges as rows ``(i, j, code)`` and the
+    CPU seconds it took.
 
     ``code`` is 1 for ``i -> j``, -1 for ``j -> i``, 0 for undirected (``i < j``).
     """
+    import time
+
+    started = time.process_time()
     b, design, moments, settings = task
     from pipeline.stats.accumulate import one_blas_thread
     from pipeline.workflow import learn_from_moments
@@ -160,7 +164,7 @@ def _relearn(task: tuple) -> tuple[int, np.ndarray]:
     for u, v in g.undirected_edges():
         i, j = sorted((pos[u], pos[v]))
         rows.append((i, j, 0))
-    return b, np.array(rows, dtype=np.int64).reshape(-1, 3)
+    return b, np.array(rows, dtype=np.int64).reshape(-1, 3), time.process_time() - started
 
 
 def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
@@ -183,7 +187,9 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
     seed : int >= 0, optional
         None draws a fresh seed (recorded in the result).
     jobs : int >= 1
-        Processes relearning the resamples (1: in this process).
+        Processes relearning the resamples (1: in this process). The workers are started
+        by a fork server; like any multiprocessing code, a script calling this with
+        ``jobs > 1`` runs its work under ``if __name__ == "__main__":``.
     settings : dict
         Keywords of `pipeline.workflow.learn_from_moments` for each resample (alpha,
         max_condition_size, targets, collider_rule, test).
@@ -214,7 +220,11 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
     p = len(design.variables)
     counts = np.zeros((4, p, p), dtype=np.int64)  # adjacent, i -> j, j -> i, undirected
 
-    def add(rows: np.ndarray) -> None:
+    cpu = [0.0]
+
+    def add(outcome: tuple[int, np.ndarray, float]) -> None:
+        rows = outcome[1]
+        cpu[0] += outcome[2]
         i, j, code = rows[:, 0], rows[:, 1], rows[:, 2]
         np.add.at(counts[0], (i, j), 1)
         np.add.at(counts[1], (i[code == 1], j[code == 1]), 1)
@@ -226,23 +236,34 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
         progress(label, 0, resamples)
     if jobs == 1:
         for n, task in enumerate(tasks, start=1):
-            add(_relearn(task)[1])
+            add(_relearn(task))
             tasks[n - 1] = None  # free the resample's statistics
             if progress is not None:
                 progress(label, n, resamples)
     else:
         import multiprocessing
         from concurrent.futures import ProcessPoolExecutor, as_completed
+        from concurrent.futures.process import BrokenProcessPool
 
         # workers fork from a server process that has imported the learner once
         context = multiprocessing.get_context("forkserver")
         context.set_forkserver_preload(["pipeline.workflow", "pipeline.analyses.bootstrap"])
-        with ProcessPoolExecutor(max_workers=min(jobs, resamples), mp_context=context) as pool:
-            futures = [pool.submit(_relearn, t) for t in tasks]
-            del tasks
-            for n, fut in enumerate(as_completed(futures), start=1):
-                add(fut.result()[1])
-                if progress is not None:
-                    progress(label, n, resamples)
-    return BootstrapResult.from_counts(design.variables, counts, resamples=resamples,
-                                       seed=seed, edges=edges)
+        try:
+            with ProcessPoolExecutor(max_workers=min(jobs, resamples),
+                                     mp_context=context) as pool:
+                futures = [pool.submit(_relearn, t) for t in tasks]
+                del tasks
+                for n, fut in enumerate(as_completed(futures), start=1):
+                    add(fut.result())
+                    if progress is not None:
+                        progress(label, n, resamples)
+        except BrokenProcessPool as exc:
+            raise RuntimeError(
+                "bootstrap: a worker process stopped before finishing (out of memory, or "
+                "killed). From a Python script, call learn(..., jobs > 1) under "
+                "`if __name__ == '__main__':` (the workers import the script's main module); "
+                "or use jobs=1") from exc
+    result = BootstrapResult.from_counts(design.variables, counts, resamples=resamples,
+                                         seed=seed, edges=edges)
+    result.cpu_seconds = cpu[0]
+    return result

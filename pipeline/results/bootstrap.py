@@ -50,11 +50,14 @@ class BootstrapResult:
         variable order: ``result`` (the pair's edge in the result, e.g. ``"A -> B"``, or
         empty), then the shares of resamples in which the pair was adjacent
         (``adjacency``), directed ``x -> y``, directed ``y -> x``, undirected.
+    cpu_seconds : float or None
+        CPU time the relearning took, over all processes (not kept in the file).
     """
 
     resamples: int
     seed: int
     pairs: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(COLUMNS)))
+    cpu_seconds: float | None = None
 
     @classmethod
     def from_counts(cls, variables: Sequence[str], counts: np.ndarray, *, resamples: int,
