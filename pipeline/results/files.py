@@ -36,6 +36,7 @@ RESULT_FILES = ("result.json", "edges.csv", "removed.csv", "graph.graphml", "che
                 "response.csv", "report.html", "graph.png")
 #: The pair table of the bootstrap, written by `save_learn` when resamples were run.
 BOOTSTRAP_FILE = "bootstrap.csv"
+_BOOTSTRAP_TITLE = "Bootstrap: edge stability under resampling"
 #: Files of an earlier run that go to history/ with them (other commands add them to DIR).
 RUN_FILES = RESULT_FILES + (BOOTSTRAP_FILE, "sweep.csv", "sweep.json", "validation.csv",
                             "validation.json", "plan.json")
@@ -61,7 +62,7 @@ def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
     sections = []
     if result.bootstrap is not None:
         texts[BOOTSTRAP_FILE] = result.bootstrap.to_csv()
-        sections.append((_SECTIONS[0][1], result.bootstrap.html_section()))
+        sections.append((_BOOTSTRAP_TITLE, result.bootstrap.html_section()))
     texts["report.html"] = render_report(record, result.check, sections)
     picture = None
     if len(record.nodes) <= MAX_DRAWN:
@@ -116,8 +117,7 @@ def report_sections(folder: str | Path) -> list[tuple[str, str]]:
 
 #: File, section title, module and type that reads it (``.read(path).html_section()``).
 _SECTIONS: tuple[tuple[str, str, str, str], ...] = (
-    (BOOTSTRAP_FILE, "Bootstrap: edge stability under resampling", "pipeline.results.bootstrap",
-     "BootstrapResult"),
+    (BOOTSTRAP_FILE, _BOOTSTRAP_TITLE, "pipeline.results.bootstrap", "BootstrapResult"),
     ("sweep.json", "Stability across significance levels", "pipeline.results.sweep",
      "SweepResult"),
 )
