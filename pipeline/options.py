@@ -74,20 +74,23 @@ def split_names(value: Any) -> tuple[str, ...]:
 
 
 def check_data_paths(data: Any) -> list[Path]:
-    """One or more existing measurement files."""
+    """One or more existing measurement files (a `DataFiles` keeps its reading options)."""
     if data is None or (isinstance(data, (list, tuple)) and not data):
-        raise InputError("DATA: no data file given; name one or more CSV or Parquet files")
+        raise InputError("DATA: no data file given; name one or more measurement files")
     if isinstance(data, (str, Path)):
         data = [data]
     paths = []
     for d in data:
         if not isinstance(d, (str, Path)):
-            raise InputError(f"DATA: {type(d).__name__} given; expected paths of CSV or "
-                             f"Parquet files")
+            raise InputError(f"DATA: {type(d).__name__} given; expected paths of measurement "
+                             f"files")
         p = Path(d)
         if not p.is_file():
             raise InputError(f"data file {p}: no such file; check the path")
         paths.append(p)
+    reading = getattr(data, "reading", None)  # a DataFiles carries how to read the files
+    if reading is not None:
+        return type(data)(paths, reading)
     return paths
 
 

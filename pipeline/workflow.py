@@ -81,13 +81,15 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           reference: str | None = None, regime_column: str = "regime",
           ignore_columns: Sequence[str] | str = (), drop_missing: bool = False,
           test: str = "gaussian", collider_rule: str = "majority", seed: int | None = None,
-          bootstrap: int = 0, jobs: int = 1, progress: ProgressArg = False) -> LearnResult:
+          bootstrap: int = 0, jobs: int = 1, progress: ProgressArg = False,
+          decimal: str | None = None, regime_from: str | None = None, sheet: str | None = None,
+          genes: str | Path | Sequence[str] | None = None) -> LearnResult:
     """Learn the interventional essential graph of measurement files, with per-edge evidence.
 
     Parameters
     ----------
     data : path or sequence of paths
-        Measurement files (CSV or Parquet), read as one table.
+        Measurement files (any format of `pipeline.intake.formats`), read as one table.
     regimes : path
         The regimes file.
     out : path, optional
@@ -111,6 +113,9 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         Processes relearning the resamples (the result does not depend on it).
     progress : bool or callable
         True: progress bars on a terminal; a callable receives ``(label, done, total)``.
+    decimal, regime_from, sheet, genes
+        How to read the files, as for `pipeline.intake.read.read_inputs` (also carried
+        by `data` when it is a `pipeline.intake.tables.DataFiles`).
 
     Returns
     -------
@@ -124,6 +129,9 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     # 0. validate everything once
     alpha, max_k, targets, test, collider_rule = _check_options(
         alpha, max_condition_size, targets, test, collider_rule)
+    from pipeline.intake.tables import reading_of
+
+    reading = reading_of(data, decimal, regime_from, sheet, genes)
     paths, regimes_path = check_data_paths(data), check_regimes_path(regimes)
     if out is not None and Path(out).exists() and not Path(out).is_dir():
         raise InputError(f"--out {out}: is a file; name a folder for the result files")
@@ -138,7 +146,9 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
 
     # 1. the fingerprint: raw bytes and the options that change the statistics
     options = dict(regime_column=regime_column, ignore_columns=ignore,
-                   drop_missing=bool(drop_missing), reference=reference, test=test)
+                   drop_missing=bool(drop_missing), reference=reference, test=test,
+                   decimal=reading.decimal, regime_from=reading.regime_from,
+                   sheet=reading.sheet, genes=reading.genes)
     fingerprint = fingerprint_inputs(paths, regimes_path, **options)
 
     # 2. statistics from the store, or read once and stored (the store file is created
@@ -166,6 +176,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                     "test": test, "collider_rule": collider_rule, "reference": reference,
                     "regime_column": regime_column, "ignore_columns": list(ignore),
                     "drop_missing": bool(drop_missing), "fingerprint": fingerprint}
+        settings.update(_reading_settings(reading))
         if seed is not None:
             settings["seed"] = seed
         if bootstrap:
@@ -180,7 +191,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                             progress=progress, check=True)
             result.run["from_store"] = stored is not None
             if bootstrap:
-                _add_bootstrap(result, paths, intake, options, jobs, progress)
+                _add_bootstrap(result, paths, intake, options, reading, jobs, progress)
             result.run["seconds"] = time.perf_counter() - started
             # 5. the files
             if out is not None:
@@ -193,7 +204,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
 
 
 def _add_bootstrap(result: LearnResult, paths: list[Path], intake, options: dict[str, Any],
-                   jobs: int, progress: ProgressArg) -> None:
+                   reading, jobs: int, progress: ProgressArg) -> None:
     """Bootstrap frequencies for every edge of `result` (`pipeline.analyses.bootstrap`)."""
     from pipeline.analyses.bootstrap import bootstrap
 
@@ -211,8 +222,22 @@ def _add_bootstrap(result: LearnResult, paths: list[Path], intake, options: dict
             paths, intake.design, intake.moments, result.edge_records,
             resamples=s["bootstrap"], seed=s["seed"], jobs=jobs, settings=relearn,
             regime_column=options["regime_column"], drop_missing=options["drop_missing"],
-            test=options["test"], progress=fn))
+            test=options["test"], reading=reading, progress=fn))
     result.run["jobs"] = jobs
+
+
+def _reading_settings(reading) -> dict:
+    """The reading options that differ from their defaults, for the result's settings."""
+    out: dict[str, Any] = {}
+    if reading.decimal != ".":
+        out["decimal"] = reading.decimal
+    if reading.regime_from != "column":
+        out["regime_from"] = reading.regime_from
+    if reading.sheet is not None:
+        out["sheet"] = reading.sheet
+    if reading.genes is not None:
+        out["genes"] = list(reading.genes)
+    return out
 
 
 def learn_from_moments(design: Design, moments: Moments, *, alpha: float = 0.01,

@@ -115,3 +115,27 @@ def test_grouped_rows_and_caller_array_untouched():
     res = acc.result()
     both = np.concatenate([codes, codes[::-1]])
     _check_against_numpy(res, both, np.vstack([x, x]), rtol=1e-10)
+
+
+def test_third_and_fourth_moments_match_scipy():
+    # Pebay (2008) merges against scipy.stats.moment on the raw rows of each regime
+    from scipy import stats
+
+    rng = np.random.default_rng(7)
+    n, p = 2500, 4
+    codes = rng.integers(0, 3, n)
+    x = rng.exponential(size=(n, p)) * np.array([1.0, 3.0, 0.2, 1.0]) + 50.0 + codes[:, None]
+    res = _stream(codes, x, ["a", "b", "c"], rng, max_chunk=80)
+    for k in range(3):
+        rows = x[codes == k]
+        np.testing.assert_allclose(res.m3[k] / len(rows), stats.moment(rows, 3), rtol=1e-8)
+        np.testing.assert_allclose(res.m4[k] / len(rows), stats.moment(rows, 4), rtol=1e-8)
+    # pooling regimes by the merge equals the moments of their union
+    m3, m4 = res.pooled_tails(["a", "c"])
+    rows = x[(codes == 0) | (codes == 2)]
+    np.testing.assert_allclose(m3 / len(rows), stats.moment(rows, 3), rtol=1e-8)
+    np.testing.assert_allclose(m4 / len(rows), stats.moment(rows, 4), rtol=1e-8)
+    # skewness and excess kurtosis as scipy.stats defines them (biased, Fisher)
+    skew, kurt = res.shape()
+    np.testing.assert_allclose(skew[1], stats.skew(x[codes == 1]), rtol=1e-8)
+    np.testing.assert_allclose(kurt[1], stats.kurtosis(x[codes == 1]), rtol=1e-8)

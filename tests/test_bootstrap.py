@@ -105,6 +105,19 @@ def test_true_edges_are_more_stable_than_false_ones(tmp_path):
     assert np.mean(true_pairs) > np.mean(other_pairs)
 
 
+def test_other_formats_are_read_as_the_intake_reads_them(tmp_path, files):
+    # the same table as tab-separated text: the same rows, so the same resamples
+    data, regimes = files
+    tsv = tmp_path / "data.tsv"
+    pd.read_csv(data).to_csv(tsv, sep="\t", index=False)
+    a = learn(data, regimes, alpha=0.05, bootstrap=4, seed=6)
+    b = learn(tsv, regimes, alpha=0.05, bootstrap=4, seed=6)
+    assert [(e.source, e.target, e.bootstrap_adjacency, e.bootstrap_orientation)
+            for e in a.edge_records] == \
+        [(e.source, e.target, e.bootstrap_adjacency, e.bootstrap_orientation)
+         for e in b.edge_records]
+
+
 def test_progress_over_the_resamples(files):
     data, regimes = files
     seen = []

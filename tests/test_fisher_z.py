@@ -78,25 +78,40 @@ def test_one_regime_is_classical_fisher_z(l_size):
     for i in range(len(x)):
         r = stats.pearsonr(_residuals(rows, x[i], cond[i]), _residuals(rows, y[i], cond[i]))[0]
         z = np.sqrt(len(rows) - l_size - 3) * np.arctanh(r)
-        assert res.statistic[i] == pytest.approx(z, abs=1e-10)
+        assert res.statistic[i] == pytest.approx(abs(z), abs=1e-9)  # |z|: two-sided
         assert res.pvalue[i] == pytest.approx(2 * stats.norm.sf(abs(z)), abs=1e-10)
+
+
+def _combined_by_hand(terms: list[tuple[float, float]]) -> float:
+    """METHODS.md 3 by hand from (m_k, atanh r_k): the signed sum (normal) and the sum of
+    squares (chi-square, K df), p-values from scipy.stats, joined by the Cauchy combination
+    of Liu & Xie (2020), T = (tan(pi (1/2 - p1)) + tan(pi (1/2 - p2))) / 2, with p-values
+    capped at 0.99; tan(pi (1/2 - p)) is written 1 / tan(pi p) and 1/2 - arctan(T) / pi as
+    arctan(1 / T) / pi (T > 0) to keep precision for tiny p."""
+    m = np.array([t[0] for t in terms], dtype=float)
+    z = np.array([t[1] for t in terms])
+    p1 = min(2 * stats.norm.sf(abs((m * z).sum() / np.sqrt(m.sum()))), 0.99)
+    p2 = min(stats.chi2.sf((m * z * z).sum(), len(terms)), 0.99)
+    t = 0.5 * (1 / np.tan(np.pi * p1) + 1 / np.tan(np.pi * p2))
+    return float(np.arctan(1 / t) / np.pi if t > 0 else 0.5 + np.arctan(-t) / np.pi)
 
 
 @pytest.mark.parametrize("l_size", [0, 2])
 def test_stratified_combination_by_hand(l_size):
-    # METHODS.md 3: Z = sum_k m_k atanh(r_k) / sqrt(sum_k m_k), r_k from scipy.stats.pearsonr
+    # METHODS.md 3, r_k from scipy.stats.pearsonr on OLS residuals
     samples = _samples()
     moments = Moments.from_samples(samples, VARIABLES)
     x, y, cond = _tests(l_size)
     res = fisher_z(moments, x, y, cond)
     for i in range(len(x)):
-        num = den = 0.0
+        terms = []
         for rows in samples.values():
             r = stats.pearsonr(_residuals(rows, x[i], cond[i]),
                                _residuals(rows, y[i], cond[i]))[0]
-            m_k = len(rows) - l_size - 3
-            num, den = num + m_k * np.arctanh(r), den + m_k
-        assert res.statistic[i] == pytest.approx(num / np.sqrt(den), abs=1e-10)
+            terms.append((len(rows) - l_size - 3, np.arctanh(r)))
+        expected = _combined_by_hand(terms)
+        assert res.pvalue[i] == pytest.approx(expected, rel=1e-8)
+        assert res.statistic[i] == pytest.approx(stats.norm.isf(expected / 2), rel=1e-8)
     # a subset of regimes is the same combination over that subset
     sub = fisher_z(moments, x, y, cond, regimes=[0, 2])
     alone = fisher_z(Moments.from_samples({k: samples[k] for k in ("r0", "r2")}, VARIABLES),
@@ -198,13 +213,13 @@ def test_constant_within_regime_is_left_out():
     np.testing.assert_array_equal(res.left_out, expected)
     # the tests involving B equal the combination over the other regimes (scipy by hand)
     for i in range(3):
-        num = den = 0.0
+        terms = []
         for name in ("r0", "r2"):
             rows = samples[name]
             r = stats.pearsonr(_residuals(rows, x[i], cond[i]),
                                _residuals(rows, y[i], cond[i]))[0]
-            num, den = num + (len(rows) - 4) * np.arctanh(r), den + len(rows) - 4
-        assert res.statistic[i] == pytest.approx(num / np.sqrt(den), abs=1e-10)
+            terms.append((len(rows) - 4, np.arctanh(r)))
+        assert res.pvalue[i] == pytest.approx(_combined_by_hand(terms), rel=1e-8)
 
 
 def test_no_usable_regime_cannot_reject():

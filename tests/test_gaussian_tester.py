@@ -15,7 +15,7 @@ from pipeline.design import Design, Regime
 from pipeline.errors import InputError
 from pipeline.independence.fisher_z import fisher_z
 from pipeline.independence.gaussian import GaussianTester
-from pipeline.independence.invariance import invariance_lr, response_matrix
+from pipeline.independence.invariance import invariance_test, response_matrix
 from pipeline.stats.moments import Moments
 
 VARIABLES = ("A", "B", "C", "D", "E")
@@ -61,11 +61,15 @@ def test_matches_direct_calls(l_size):
     np.testing.assert_array_equal(got.left_out, want.left_out)
     assert got.left_out[:, 3].any()  # tests involving C leave kd_C out
     # invariance: against the reference pooled from the raw control rows (numpy)
-    ref = _stats(np.vstack([samples["ctrl1"], samples["ctrl2"]]))
+    controls = np.vstack([samples["ctrl1"], samples["ctrl2"]])
+    ref = _stats(controls)
     xs, cs = x, np.column_stack([y, cond])[:, :l_size]
     for name in ("kd_A", "kd_C"):
         got = tester.invariance(name, xs, cs)
-        want = invariance_lr(*ref, *_stats(samples[name]), xs, cs)
+        rows = samples[name]
+        want = invariance_test(*ref, *_stats(rows), xs, cs,
+                               m4_ref=((controls - controls.mean(0)) ** 4).sum(0),
+                               m4_k=((rows - rows.mean(0)) ** 4).sum(0))
         np.testing.assert_allclose(got.statistic, want.statistic, rtol=1e-9)
         np.testing.assert_allclose(got.pvalue, want.pvalue, rtol=1e-9, atol=1e-300)
     assert tester.n_tests == {"ci": len(x), "invariance": 2 * len(x)}

@@ -195,7 +195,8 @@ def _bad_cases():
                             ["plates", "--ignore-columns"]),
         "differing files": ({"a.csv": t, "b.csv": t.rename(columns={"X4": "X5"})}, REGIMES, {},
                             ["b.csv", "missing X4", "extra X5"]),
-        "unknown extension": ({"d.xlsx": good}, REGIMES, {}, ["d.xlsx", ".xlsx"]),
+        "unknown extension": ({"d.json": good}, REGIMES, {}, ["d.json", ".json"]),
+        "not a workbook": ({"d.xlsx": good}, REGIMES, {}, ["d.xlsx", "not a readable Excel"]),
     }
     return cases
 

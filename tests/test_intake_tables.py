@@ -32,8 +32,10 @@ def test_header_checks(tmp_path):
 def test_data_path_checks(tmp_path):
     with pytest.raises(InputError, match="no such file"):
         check_data_path(tmp_path / "missing.csv")
-    with pytest.raises(InputError, match="unknown file type '.xlsx'"):
-        check_data_path(_csv(tmp_path, "a\n1\n", name="d.xlsx"))
+    with pytest.raises(InputError, match="unknown file type '.xls'.*save the sheet as .xlsx"):
+        check_data_path(_csv(tmp_path, "a\n1\n", name="d.xls"))
+    with pytest.raises(InputError, match=r"unknown file type '.json.gz'"):
+        check_data_path(_csv(tmp_path, "a\n1\n", name="d.json.gz"))
     with pytest.raises(InputError, match="0 bytes"):
         check_data_path(_csv(tmp_path, "", name="e.csv"))
 

@@ -40,6 +40,11 @@ def test_weighted_moments_equal_those_of_the_explicit_resample(monkeypatch, bloc
             np.testing.assert_allclose(got[b].mean[k], explicit.mean(axis=0), rtol=1e-12)
             np.testing.assert_allclose(got[b].scatter[k] / (sizes[k] - 1),
                                        np.cov(explicit, rowvar=False), rtol=1e-9, atol=1e-12)
+            # third and fourth central moment sums, against numpy on the resampled rows
+            d = explicit - explicit.mean(axis=0)
+            for got_m, power in ((got[b].m3[k], 3), (got[b].m4[k], 4)):
+                scale = (np.abs(d) ** power).sum(axis=0)
+                assert np.all(np.abs(got_m - (d ** power).sum(axis=0)) <= 1e-9 * scale)
 
 
 def test_counts_do_not_depend_on_chunking(monkeypatch):

@@ -69,9 +69,12 @@ def check_bootstrap_options(resamples: Any, seed: Any, jobs: Any) -> tuple[int, 
 
 def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Moments, *,
                       resamples: int, seed: int, regime_column: str = "regime",
-                      drop_missing: bool = False, test: str = "gaussian",
+                      drop_missing: bool = False, test: str = "gaussian", reading: Any = None,
                       chunk_rows: int = 100_000, progress: ProgressFn = None) -> list[Moments]:
     """The statistics of `resamples` bootstrap resamples of the data, in one pass.
+
+    The files are read as the intake reads them (same formats, reading options, regime
+    labels, dropped rows), so each row meets the same regime as in the run.
 
     Parameters
     ----------
@@ -84,6 +87,8 @@ def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Mome
     resamples, seed : int
     regime_column, drop_missing, test
         As for the intake (`pipeline.intake.read.read_inputs`).
+    reading : ReadOptions, optional
+        How the files are read (`pipeline.intake.tables.reading_of`); default options if None.
     chunk_rows : int
         Rows per chunk (the result does not depend on it).
     progress : callable, optional
@@ -99,10 +104,11 @@ def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Mome
         If the statistics would not fit in memory, or the files no longer hold the rows
         the run counted (changed since).
     """
-    from pipeline.intake.tables import iter_chunks, read_header
-    from pipeline.stats.ranks import normal_scores
+    from pipeline.intake.read import _Pass  # the intake's own handling of each chunk
+    from pipeline.intake.tables import ReadOptions, iter_chunks, read_header
     from pipeline.stats.resample import ResampleAccumulator
 
+    reading = reading if reading is not None else ReadOptions()
     names = tuple(r.name for r in design.regimes)
     p, k = len(design.variables), len(names)
     need = 8 * resamples * k * p * p
@@ -111,30 +117,22 @@ def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Mome
                          f"{k} regimes x {p} variables need {need / 2**30:.1f} GiB of memory "
                          f"(limit {MAX_BYTES / 2**30:.0f} GiB); use fewer resamples")
     counts = [int(moments.count[moments.index(n)]) for n in names]
-    acc = ResampleAccumulator(design.variables, names, counts, resamples, seed)
-    index = {n: i for i, n in enumerate(names)}
+    by_name = reading.regime_from == "filename"
+    state = _Pass(design.variables, list(names), {n: i for i, n in enumerate(names)},
+                  drop_missing, keep_rows=test == "rank", by_name=by_name)
+    state.acc = ResampleAccumulator(design.variables, names, counts, resamples, seed)
     total, done = int(sum(counts)), 0
-    kept: list[tuple[np.ndarray, np.ndarray]] = []
     try:
         for path in paths:
-            header = read_header(Path(path))
-            for chunk in iter_chunks(header, design.variables, regime_column, chunk_rows):
-                lookup = np.array([index.get(lab, -1) for lab in chunk.labels] + [-1],
-                                  dtype=np.int64)
-                codes = lookup[chunk.codes]
-                keep = (codes >= 0) & np.isfinite(chunk.values).all(axis=1)
-                codes, values = codes[keep], chunk.values[keep]
-                if test == "rank":
-                    kept.append((codes, values))
-                else:
-                    acc.update(codes, values)
-                done += int(codes.size)
+            header = read_header(Path(path), reading)
+            for chunk in iter_chunks(header, design.variables,
+                                     None if by_name else regime_column, chunk_rows, reading):
+                state.add(header, chunk)
+                done += len(chunk.codes)
                 if progress is not None:
                     progress("bootstrap: reading data", min(done, total), total)
-        if test == "rank" and kept:
-            acc.update(np.concatenate([c for c, _ in kept]),
-                       normal_scores(np.concatenate([v for _, v in kept])))
-        return acc.result()
+        state.finish()
+        return state.moments()
     except ValueError as exc:
         raise InputError(f"bootstrap: the data files no longer match the run ({exc}); run "
                          f"learn again without the store") from None
@@ -171,7 +169,8 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
               edges: Sequence[Any], *, resamples: int, seed: int | None = None,
               jobs: int = 1, settings: dict[str, Any] | None = None,
               regime_column: str = "regime", drop_missing: bool = False,
-              test: str = "gaussian", progress: ProgressFn = None) -> BootstrapResult:
+              test: str = "gaussian", reading: Any = None,
+              progress: ProgressFn = None) -> BootstrapResult:
     """Bootstrap frequencies of adjacency and orientation for every pair of variables.
 
     Parameters
@@ -193,8 +192,8 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
     settings : dict
         Keywords of `pipeline.workflow.learn_from_moments` for each resample (alpha,
         max_condition_size, targets, collider_rule, test).
-    regime_column, drop_missing, test
-        As for the intake.
+    regime_column, drop_missing, test, reading
+        As for the intake (see `resampled_moments`).
     progress : callable, optional
         ``progress(label, done, total)``: the reading pass, then the resamples.
 
@@ -213,7 +212,7 @@ def bootstrap(paths: Sequence[str | Path], design: Design, moments: Moments,
     seed = fresh_seed() if seed is None else seed
     all_moments = resampled_moments(paths, design, moments, resamples=resamples, seed=seed,
                                     regime_column=regime_column, drop_missing=drop_missing,
-                                    test=test, progress=progress)
+                                    test=test, reading=reading, progress=progress)
     settings = dict(settings or {})
     tasks = [(b, design, m, settings) for b, m in enumerate(all_moments)]
     del all_moments

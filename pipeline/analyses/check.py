@@ -40,8 +40,9 @@ import numpy as np
 
 from pipeline.errors import InputError
 from pipeline.independence.invariance import (
-    invariance_lr,
+    regime_pair,
     response_matrix,
+    standardized_difference,
 )
 from pipeline.options import check_alpha
 from pipeline.results.check import (
@@ -202,16 +203,13 @@ def control_agreement(intake: Intake, alpha: float = 0.01) -> ControlAgreement:
     every = np.arange(p)
     shift, stat, pval = (np.zeros((len(names), p)) for _ in range(3))
     for i, name in enumerate(names):
-        n_o, mean_o, scatter_o = moments.pooled([m for m in names if m != name])
+        others = [m for m in names if m != name]
+        n_o, mean_o, scatter_o = moments.pooled(others)
         k = moments.index(name)
-        res = invariance_lr(n_o, mean_o, scatter_o, int(moments.count[k]), moments.mean[k],
-                            moments.scatter[k], every, np.zeros((p, 0), dtype=np.intp))
+        res = regime_pair(moments, others, name).test(every, np.zeros((p, 0), dtype=np.intp))
         stat[i], pval[i] = res.statistic, res.pvalue
         sd = np.sqrt(np.diagonal(scatter_o) / max(n_o - 1, 1))
-        diff = moments.mean[k] - mean_o
-        with np.errstate(divide="ignore", invalid="ignore"):
-            shift[i] = np.where(sd > 0, diff / np.where(sd > 0, sd, 1.0), np.sign(diff) * np.inf)
-        shift[i][(sd == 0) & (diff == 0)] = 0.0
+        shift[i] = standardized_difference(moments.mean[k] - mean_o, sd)
     adjusted = np.minimum(1.0, pval * p)
     return ControlAgreement(names, tuple(moments.variables), shift, stat, pval, adjusted, alpha)
 

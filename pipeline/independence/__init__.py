@@ -8,14 +8,14 @@ hide the module of the same name.
 from pipeline.independence.base import Tester, TestResults
 from pipeline.independence.fisher_z import partial_correlation
 from pipeline.independence.gaussian import GaussianTester
-from pipeline.independence.invariance import ResponseMatrix, invariance_lr, response_matrix
+from pipeline.independence.invariance import ResponseMatrix, invariance_test, response_matrix
 
 __all__ = [
     "Tester",
     "TestResults",
     "partial_correlation",
     "GaussianTester",
-    "invariance_lr",
+    "invariance_test",
     "response_matrix",
     "ResponseMatrix",
 ]

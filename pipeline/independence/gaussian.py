@@ -28,6 +28,7 @@ from pipeline.independence.invariance import (
     ResponseMatrix,
     _check_design,
     _Pair,
+    regime_pair,
     response_matrix,
 )
 from pipeline.stats.moments import Moments
@@ -75,7 +76,6 @@ class GaussianTester:
         self._p = len(moments.variables)
         used = np.array([moments.index(r.name) for r in design.regimes], dtype=np.intp)
         self._strata = _Strata(moments, used)
-        self._ref = moments.pooled(self.reference)
         self._pairs: dict[str, _Pair] = {}
         self.n_tests: dict[str, int] = {"ci": 0, "invariance": 0}
 
@@ -116,9 +116,7 @@ class GaussianTester:
         if regime in self.reference:
             raise ValueError(f"regime: {regime!r} is part of the reference; invariance tests "
                              "compare a non-reference regime with the reference")
-        k = self.moments.index(regime)
-        pair = _Pair(*self._ref, int(self.moments.count[k]), self.moments.mean[k],
-                     self.moments.scatter[k])
+        pair = regime_pair(self.moments, self.reference, regime)
         if len(self._pairs) >= _PAIR_CACHE:  # bound memory: O(p^2) per cached regime
             self._pairs.pop(next(iter(self._pairs)))
         self._pairs[regime] = pair

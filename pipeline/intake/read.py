@@ -33,11 +33,14 @@ from pipeline.errors import InputError, nearest_names
 from pipeline.intake.checks import check_statistics
 from pipeline.intake.regimes import read_regimes
 from pipeline.intake.tables import (
+    ReadOptions,
     TableHeader,
     check_data_path,
+    file_stem,
     iter_chunks,
     locate_row,
     read_header,
+    reading_of,
     resolve_variables,
 )
 from pipeline.options import TESTS
@@ -96,7 +99,7 @@ def _check_arguments(data, regimes, regime_column, ignore_columns, test, chunk_r
         data = [data]
     data = list(data)
     if not data:
-        raise InputError("DATA: no data file given; name one or more CSV or Parquet files")
+        raise InputError("DATA: no data file given; name one or more measurement files")
     if test not in TESTS:
         raise InputError(f"--test {test}: unknown test{nearest_names(str(test), TESTS)}; "
                          f"choose one of {', '.join(TESTS)}")
@@ -125,13 +128,20 @@ def _progress(enabled: bool):
 def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_column: str = "regime",
                 ignore_columns: Sequence[str] = (), drop_missing: bool = False,
                 reference: str | None = None, test: str = "gaussian", chunk_rows: int = 100_000,
-                progress: bool = False, fingerprint: str | None = None) -> Intake:
+                progress: bool = False, fingerprint: str | None = None,
+                decimal: str | None = None, regime_from: str | None = None,
+                sheet: str | None = None,
+                genes: str | Path | Sequence[str] | None = None) -> Intake:
     """Read measurement tables and the regimes file into a design and per-regime statistics.
 
     Parameters
     ----------
     data : sequence of str or Path
-        CSV (``.csv``) or Parquet (``.parquet``) files, read as one table.
+        Measurement files, read as one table: CSV (``.csv``), tab-separated (``.tsv``,
+        ``.tab``, ``.txt``), either gzip-compressed (``.gz``), Parquet (``.parquet``),
+        Excel (``.xlsx``), AnnData (``.h5ad``). A
+        :class:`~pipeline.intake.tables.DataFiles` also carries the reading options
+        below (a keyword given here wins).
     regimes : str or Path
         The regimes file (see :mod:`pipeline.intake.regimes`).
     regime_column : str
@@ -163,10 +173,15 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         Any problem of the inputs; the message names the culprit and what to do.
     """
     # 1. arguments, headers, variables, regimes file
+    reading = reading_of(data, decimal, regime_from, sheet, genes)
     paths, regimes_path, regime_column, ignore = _check_arguments(
         data, regimes, regime_column, ignore_columns, test, chunk_rows)
-    headers = [read_header(p) for p in paths]
-    variables = resolve_variables(headers, regime_column, ignore)
+    by_name = reading.regime_from == "filename"
+    if by_name:
+        _check_stems(paths)
+    headers = [read_header(p, reading) for p in paths]
+    variables = resolve_variables(headers, None if by_name else regime_column, ignore,
+                                  reading.genes)
     regs = read_regimes(regimes_path, variables=variables, reference=reference)
     names = [r.name for r in regs]
     index = {name: k for k, name in enumerate(names)}
@@ -180,9 +195,10 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
         if fingerprint is None:
             fp = hasher.submit(_fingerprint, paths, regimes_path, statistics_options(
                 regime_column=regime_column, ignore_columns=ignore, drop_missing=drop_missing,
-                reference=reference, test=test), stop)
+                reference=reference, test=test, **_reading_keys(reading)), stop)
         # 2. one streaming pass over every file
-        state = _Pass(variables, names, index, drop_missing, keep_rows=test == "rank")
+        state = _Pass(variables, names, index, drop_missing, keep_rows=test == "rank",
+                      by_name=by_name)
         bar = _progress(progress)
         if bar is not None:
             bar.start()
@@ -192,7 +208,8 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
                 rows = 0
                 pending = None
                 try:
-                    for chunk in iter_chunks(header, variables, regime_column, chunk_rows):
+                    for chunk in iter_chunks(header, variables, regime_column, chunk_rows,
+                                             reading):
                         if pending is not None:
                             pending.result()  # chunks are added in file order
                         pending = worker.submit(state.add, header, chunk)
@@ -231,10 +248,29 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
     return Intake(design, moments, fingerprint, state.dropped, list(warnings))
 
 
+def _reading_keys(reading: ReadOptions) -> dict:
+    """The reading options as keywords of `statistics_options`."""
+    return {"decimal": reading.decimal, "regime_from": reading.regime_from,
+            "sheet": reading.sheet, "genes": reading.genes}
+
+
+def _check_stems(paths: Sequence[Path]) -> None:
+    """With the regime taken from the file name, two files may not share a name."""
+    seen: dict[str, Path] = {}
+    for p in paths:
+        stem = file_stem(p)
+        if stem in seen:
+            raise InputError(f"--regime-from filename: data files {seen[stem]} and {p} have the "
+                             f"same name '{stem}', so they would be one regime; rename one, or "
+                             f"put a regime column in the files")
+        seen[stem] = p
+
+
 class _Pass:
     """State of the streaming pass: accumulator, missing-value counts, kept rows."""
 
-    def __init__(self, variables, names, index, drop_missing, keep_rows):
+    def __init__(self, variables, names, index, drop_missing, keep_rows, by_name=False):
+        self.by_name = by_name
         self.variables, self.names, self.index = variables, names, index
         self.drop_missing = drop_missing
         self.acc = MomentAccumulator(variables, names)
@@ -253,6 +289,12 @@ class _Pass:
         unknown = [lab for lab in chunk.labels if lab not in self.index]
         if unknown:
             first = int(np.flatnonzero(codes == -2)[0])
+            if self.by_name:
+                raise InputError(
+                    f"data file {header.path}: its regime (--regime-from filename) is "
+                    f"'{unknown[0]}', which has no row in the regimes file"
+                    f"{nearest_names(unknown[0], self.names)}; add a row for it or rename "
+                    f"the file")
             raise InputError(
                 f"data file {header.path}, {locate_row(header, chunk.start + first)}: regime "
                 f"'{unknown[0]}' has no row in the regimes file"

@@ -120,6 +120,7 @@ _SECTIONS: tuple[tuple[str, str, str, str], ...] = (
     (BOOTSTRAP_FILE, _BOOTSTRAP_TITLE, "pipeline.results.bootstrap", "BootstrapResult"),
     ("sweep.json", "Stability across significance levels", "pipeline.results.sweep",
      "SweepResult"),
+    ("validation.json", "Held-out validation", "pipeline.results.validate", "ValidationResult"),
 )
 
 

@@ -1,11 +1,12 @@
 """Streaming per-regime sufficient statistics.
 
 A :class:`MomentAccumulator` reads chunks of rows labelled by regime and keeps, per
-regime, the row count, the mean vector and the centred scatter matrix. Each chunk is
-grouped by regime, reduced with one matrix product per regime (two-pass within the
-chunk), and merged into the running totals with the pairwise update of Chan, Golub &
-LeVeque (1979), which keeps full precision even when the means are large compared with
-the spread. Memory is O(K p^2) whatever the number of rows.
+regime, the row count, the mean vector, the centred scatter matrix and the per-variable
+third and fourth central moment sums. Each chunk is grouped by regime, reduced with one
+matrix product per regime (two-pass within the chunk), and merged into the running
+totals with the pairwise updates of Chan, Golub & LeVeque (1979) and Pebay (2008), which
+keep full precision even when the means are large compared with the spread. Memory is
+O(K p^2) whatever the number of rows.
 
 >>> import numpy as np
 >>> acc = MomentAccumulator(["x", "y"], ["ctrl", "kd"])
@@ -17,6 +18,8 @@ References
 ----------
 1. T. F. Chan, G. H. Golub, R. J. LeVeque (1979). Updating formulae and a pairwise
    algorithm for computing sample variances. Technical report STAN-CS-79-773.
+2. P. Pebay (2008). Formulas for robust, one-pass parallel computation of covariances
+   and arbitrary-order statistical moments. Sandia report SAND2008-6212.
 """
 
 from __future__ import annotations
@@ -29,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 
-from pipeline.stats.moments import Moments, merge_moments
+from pipeline.stats.moments import Moments, merge_moments, merge_tails
 
 __all__ = ["MomentAccumulator", "one_blas_thread"]
 
@@ -94,6 +97,8 @@ class MomentAccumulator:
         self.count = np.zeros(k, dtype=np.int64)
         self.mean = np.zeros((k, p))
         self.scatter = np.zeros((k, p, p))
+        self.m3 = np.zeros((k, p))
+        self.m4 = np.zeros((k, p))
 
     def update(self, regime_codes: np.ndarray, values: np.ndarray) -> None:
         """Add a chunk of rows.
@@ -156,27 +161,35 @@ class MomentAccumulator:
             else:
                 centred = block - mu
             sc = centred.T @ centred
-            n_new, mean_new, scatter_new = merge_moments(
-                int(self.count[code]), self.mean[code], self.scatter[code], m, mu, sc)
-            self.count[code] = n_new
-            self.mean[code] = mean_new
-            self.scatter[code] = scatter_new
+            sq = centred * centred
+            m3 = np.einsum("ij,ij->j", sq, centred)
+            m4 = np.einsum("ij,ij->j", sq, sq)
+            self._merge_into(code, m, mu, sc, m3, m4)
+
+    def _merge_into(self, code: int, m: int, mu: np.ndarray, sc: np.ndarray, m3: np.ndarray,
+                    m4: np.ndarray) -> None:
+        n0 = int(self.count[code])
+        self.m3[code], self.m4[code] = merge_tails(
+            n0, self.mean[code], np.diagonal(self.scatter[code]), self.m3[code],
+            self.m4[code], m, mu, np.diagonal(sc), m3, m4)
+        n_new, mean_new, scatter_new = merge_moments(
+            n0, self.mean[code], self.scatter[code], m, mu, sc)
+        self.count[code] = n_new
+        self.mean[code] = mean_new
+        self.scatter[code] = scatter_new
 
     def merge(self, other: MomentAccumulator) -> None:
         """Add the rows seen by `other` (same variables and regimes), e.g. from another worker."""
         if other.variables != self.variables or other.regimes != self.regimes:
             raise ValueError("accumulators should have the same variables and regimes")
         for code in range(len(self.regimes)):
-            n_new, mean_new, scatter_new = merge_moments(
-                int(self.count[code]), self.mean[code], self.scatter[code],
-                int(other.count[code]), other.mean[code], other.scatter[code])
-            self.count[code] = n_new
-            self.mean[code] = mean_new
-            self.scatter[code] = scatter_new
+            self._merge_into(code, int(other.count[code]), other.mean[code],
+                             other.scatter[code], other.m3[code], other.m4[code])
 
     def result(self) -> Moments:
         """The statistics so far, as a :class:`~pipeline.stats.moments.Moments` (copies)."""
         scatter = self.scatter.copy()
         # symmetrize: the merge keeps symmetry up to rounding only
         scatter = 0.5 * (scatter + np.swapaxes(scatter, 1, 2))
-        return Moments(self.variables, self.regimes, self.count.copy(), self.mean.copy(), scatter)
+        return Moments(self.variables, self.regimes, self.count.copy(), self.mean.copy(), scatter,
+                       self.m3.copy(), self.m4.copy())

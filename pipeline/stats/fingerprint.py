@@ -2,8 +2,13 @@
 
 The fingerprint is the SHA-256 of the raw bytes of every data file (in the order given),
 of the regimes file, and of the options that change the statistics (regime column,
-ignored columns, dropping of missing rows, reference, test). File names and dates do not
-enter: renaming or touching a file keeps its fingerprint; editing one byte changes it.
+ignored columns, dropping of missing rows, reference, test; and, when they differ from
+their defaults, the decimal mark, the regime source, the worksheet and the chosen
+genes). File names and dates do not enter, with two exceptions that change how the
+bytes are read: the format ending of a file that is not CSV or Parquet (``.tsv``,
+``.gz``, ``.xlsx``, ``.h5ad``, ...), and, with ``regime_from="filename"``, the file
+names that become the regime names. Otherwise renaming or touching a file keeps its
+fingerprint; editing one byte changes it.
 Hashing reads the bytes in blocks and parses nothing, so it is cheap next to reading.
 """
 
@@ -24,15 +29,30 @@ _BLOCK = 1 << 20
 
 def statistics_options(*, regime_column: str = "regime", ignore_columns: Sequence[str] = (),
                        drop_missing: bool = False, reference: str | None = None,
-                       test: str = "gaussian") -> dict:
-    """The options that change the statistics, normalized (ignored columns sorted)."""
+                       test: str = "gaussian", decimal: str = ".", regime_from: str = "column",
+                       sheet: str | None = None, genes: Sequence[str] | None = None) -> dict:
+    """The options that change the statistics, normalized (ignored columns sorted).
+
+    The reading options enter only when they differ from their defaults, so that files
+    read as before keep their fingerprint. `genes` are the chosen names, in order.
+    """
     if isinstance(ignore_columns, str):
         ignore_columns = [c for c in ignore_columns.split(",")]
-    return {"regime_column": str(regime_column),
-            "ignore_columns": sorted({str(c).strip() for c in ignore_columns if str(c).strip()}),
-            "drop_missing": bool(drop_missing),
-            "reference": None if reference is None else str(reference),
-            "test": str(test)}
+    options = {"regime_column": str(regime_column),
+               "ignore_columns": sorted({str(c).strip() for c in ignore_columns
+                                         if str(c).strip()}),
+               "drop_missing": bool(drop_missing),
+               "reference": None if reference is None else str(reference),
+               "test": str(test)}
+    if decimal is not None and decimal != ".":
+        options["decimal"] = str(decimal)
+    if regime_from is not None and regime_from != "column":
+        options["regime_from"] = str(regime_from)
+    if sheet is not None:
+        options["sheet"] = str(sheet)
+    if genes is not None:
+        options["genes"] = [str(g) for g in genes]
+    return options
 
 
 class _Stopped(Exception):
@@ -56,7 +76,9 @@ def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
 def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
                        regime_column: str = "regime", ignore_columns: Sequence[str] = (),
                        drop_missing: bool = False, reference: str | None = None,
-                       test: str = "gaussian") -> str:
+                       test: str = "gaussian", decimal: str | None = None,
+                       regime_from: str | None = None, sheet: str | None = None,
+                       genes: str | Path | Sequence[str] | None = None) -> str:
     """Return the hex SHA-256 fingerprint of the input bytes and the statistics options.
 
     Takes the same arguments as :func:`pipeline.intake.read.read_inputs` (those that
@@ -66,10 +88,16 @@ def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
     Raises
     ------
     InputError
-        If a file cannot be read.
+        If a file cannot be read, or a reading option is wrong (`genes` may name a genes
+        file, read here).
     """
+    from pipeline.intake.tables import reading_of
+
+    r = reading_of(data, decimal, regime_from, sheet, genes)
     options = statistics_options(regime_column=regime_column, ignore_columns=ignore_columns,
-                                 drop_missing=drop_missing, reference=reference, test=test)
+                                 drop_missing=drop_missing, reference=reference, test=test,
+                                 decimal=r.decimal, regime_from=r.regime_from, sheet=r.sheet,
+                                 genes=r.genes)
     return _fingerprint(data, regimes, options)
 
 
@@ -84,5 +112,18 @@ def _fingerprint(data, regimes, options: dict, stop=None) -> str | None:
         _hash_file(h, Path(regimes), b"regimes", stop)
     except _Stopped:
         return None
-    h.update(json.dumps(options, sort_keys=True).encode())
+    h.update(json.dumps(_with_names(data, options), sort_keys=True).encode())
     return h.hexdigest()
+
+
+def _with_names(data, options: dict) -> dict:
+    """`options` plus what the file names say about the reading (see the module docstring)."""
+    from pipeline.intake.formats import detect, file_stem
+
+    kinds = [detect(p) for p in data]
+    if any(k is not None and k[0] not in ("csv", "parquet") or k is not None and k[1]
+           for k in kinds):
+        options = {**options, "formats": [list(k) if k else None for k in kinds]}
+    if options.get("regime_from") == "filename":
+        options = {**options, "stems": [file_stem(p) for p in data]}
+    return options

@@ -3,12 +3,14 @@
 A nonparametric bootstrap resample of a regime with ``n_k`` rows draws ``n_k`` rows with
 replacement (Efron 1979). Row ``i`` then appears ``w_i`` times, with the counts
 ``(w_1, ..., w_{n_k})`` multinomial with ``n_k`` trials and equal probabilities. Every
-Gaussian test reads only per-regime counts, means and centred scatter matrices, so a
-resample is fully described by the *weighted* moments of the original rows:
-``n = sum w_i``, ``mean = sum w_i x_i / n``, ``scatter = sum w_i (x_i - mean)(x_i - mean)^T``.
-`ResampleAccumulator` computes those of B resamples in one streaming pass over chunks of
-rows (memory O(B K p^2), whatever the number of rows), merging chunks with the pairwise
-update of Chan, Golub & LeVeque (1979), which holds for integer weights unchanged.
+test reads only per-regime counts, means, centred scatter matrices and per-variable third
+and fourth central moment sums, so a resample is fully described by the *weighted* moments
+of the original rows: ``n = sum w_i``, ``mean = sum w_i x_i / n``,
+``scatter = sum w_i (x_i - mean)(x_i - mean)^T``, ``m3 = sum w_i (x_i - mean)^3`` and
+``m4 = sum w_i (x_i - mean)^4`` per variable. `ResampleAccumulator` computes those of B
+resamples in one streaming pass over chunks of rows (memory O(B K p^2), whatever the number
+of rows), merging chunks with the pairwise updates of Chan, Golub & LeVeque (1979) and
+Pebay (2008), which hold for integer weights unchanged.
 
 The counts of a row depend only on the seed, the resample, the regime and the row's
 position among the rows of its regime: the ``n_k`` draws of resample ``b`` in regime
@@ -30,6 +32,8 @@ References
    Statistics 7(1), 1-26.
 2. T. F. Chan, G. H. Golub, R. J. LeVeque (1979). Updating formulae and a pairwise
    algorithm for computing sample variances. Technical report STAN-CS-79-773.
+3. P. Pebay (2008). Formulas for robust, one-pass parallel computation of covariances and
+   arbitrary-order statistical moments. Sandia report SAND2008-6212.
 """
 
 from __future__ import annotations
@@ -39,7 +43,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from pipeline.stats.accumulate import one_blas_thread
-from pipeline.stats.moments import Moments
+from pipeline.stats.moments import Moments, merge_tails
 
 __all__ = ["BLOCK", "ResampleAccumulator", "resample_counts"]
 
@@ -106,6 +110,8 @@ class ResampleAccumulator:
         self.n = np.zeros((b, k))
         self.mean = np.zeros((b, k, p))
         self.scatter = np.zeros((b, k, p, p))
+        self.m3 = np.zeros((b, k, p))
+        self.m4 = np.zeros((b, k, p))
         self.seen = np.zeros(k, dtype=np.int64)  # rows of each regime passed so far
         self._block: dict[int, tuple[int, np.ndarray]] = {}  # regime -> (block, (B, size))
 
@@ -173,7 +179,18 @@ class ResampleAccumulator:
         for b in range(self.resamples):
             sc[b] = (centred * w[b][:, None]).T @ centred
         sc -= n_b[:, None, None] * shift[:, :, None] * shift[:, None, :]
+        # per-variable power sums about mu0, then about each resample's own mean
+        sq = centred * centred
+        s2, s3, s4 = w @ sq, w @ (sq * centred), w @ (sq * sq)
+        nb = n_b[:, None]
+        m3 = s3 - 3.0 * shift * s2 + 2.0 * nb * shift ** 3
+        m4 = s4 - 4.0 * shift * s3 + 6.0 * shift ** 2 * s2 - 3.0 * nb * shift ** 4
         mean_b = mu0 + shift
+        for b in range(self.resamples):  # before the mean and scatter move on
+            self.m3[b, regime], self.m4[b, regime] = merge_tails(
+                float(self.n[b, regime]), self.mean[b, regime],
+                np.diagonal(self.scatter[b, regime]), self.m3[b, regime], self.m4[b, regime],
+                float(n_b[b]), mean_b[b], np.diagonal(sc[b]), m3[b], m4[b])
         # the pairwise merge, for all resamples at once (a resample with no draw here: as is)
         n_a = self.n[:, regime]
         total = n_a + n_b
@@ -202,5 +219,5 @@ class ResampleAccumulator:
             scatter = 0.5 * (self.scatter[b] + np.swapaxes(self.scatter[b], 1, 2))
             out.append(Moments(self.variables, self.regimes,
                                np.rint(self.n[b]).astype(np.int64), self.mean[b].copy(),
-                               scatter))
+                               scatter, self.m3[b].copy(), self.m4[b].copy()))
         return out
