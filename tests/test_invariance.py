@@ -136,7 +136,8 @@ def test_null_pvalues_uniform():
     base = 4 * np.arange(GROUP)
     p_marginal, p_conditional = [], []
     for ref, regime in _null_groups(seed=4242):
-        p_marginal.append(invariance_test(*ref, *regime, base + 3, np.zeros((GROUP, 0), int)).pvalue)
+        p_marginal.append(invariance_test(*ref, *regime, base + 3,
+                                          np.zeros((GROUP, 0), int)).pvalue)
         p_conditional.append(invariance_test(*ref, *regime, base, np.column_stack([base + 1,
                                                                                 base + 2])).pvalue)
         # X's marginal law does move with S: the test sees it
