@@ -24,6 +24,14 @@ reweight them (the ranks are not recomputed within each resample).
 
 Resamples never write to the test store.
 
+A caution on reading the frequencies: a resample repeats rows, so under independence a
+test statistic computed on it varies about twice as much as on fresh data of the same size
+(its own sampling noise plus the resampling noise), and a test at level alpha rejects more
+often than alpha. Resampled graphs are therefore denser than the original one, and the
+more so for statistics that add up many regimes (the sum of squares of the stratified
+Fisher z). The frequencies rank the edges by how reliably the data support them (the use
+of Friedman, Goldszmidt & Wyner); they are not probabilities that an edge is true.
+
 References
 ----------
 1. N. Friedman, M. Goldszmidt, A. Wyner (1999). Data analysis with Bayesian networks: a
