@@ -7,6 +7,7 @@ The Python API mirrors the command line::
     result.edges            # DataFrame, one row per edge with its evidence
     result.to_networkx()
     result.save("out/")
+    pipeline.sweep("out/", [0.001, 0.01, 0.05])   # the same run at other alphas, from its store
 
 Names are imported lazily so that ``import pipeline`` stays fast.
 """
@@ -17,6 +18,7 @@ from pipeline.lazy import lazy_exports
 
 __all__ = [
     "learn",
+    "sweep",
     "check",
     "simulate",
     "identify",
@@ -31,6 +33,7 @@ __all__ = [
 
 _WHERE = {
     "learn": "pipeline.workflow",
+    "sweep": "pipeline.analyses.sweep",
     "check": "pipeline.analyses.check",
     "simulate": "pipeline.simulation",
     "identify": "pipeline.analyses.identify",

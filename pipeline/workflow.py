@@ -86,8 +86,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           reference: str | None = None, regime_column: str = "regime",
           ignore_columns: Sequence[str] | str = (), drop_missing: bool = False,
           test: str = "gaussian", collider_rule: str = "majority", seed: int | None = None,
-          progress: ProgressArg = False, decimal: str | None = None,
-          regime_from: str | None = None, sheet: str | None = None,
+          bootstrap: int = 0, jobs: int = 1, progress: ProgressArg = False,
+          decimal: str | None = None, regime_from: str | None = None, sheet: str | None = None,
           genes: str | Path | Sequence[str] | None = None) -> LearnResult:
     """Learn the interventional essential graph of measurement files, with per-edge evidence.
 
@@ -109,8 +109,13 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     reference, regime_column, ignore_columns, drop_missing, test
         As for `pipeline.intake.read.read_inputs`.
     collider_rule : {"majority", "conservative", "standard"}
-    seed : int, optional
-        Recorded in the settings (nothing random runs yet).
+    seed : int >= 0, optional
+        Seed of the bootstrap resamples (None: a fresh one, recorded in the settings).
+    bootstrap : int >= 0
+        Bootstrap resamples of the rows within each regime, each relearned; every edge
+        gets its adjacency and orientation frequencies (`pipeline.analyses.bootstrap`).
+    jobs : int >= 1
+        Processes relearning the resamples (the result does not depend on it).
     progress : bool or callable
         True: progress bars on a terminal; a callable receives ``(label, done, total)``.
     decimal, regime_from, sheet, genes
@@ -135,6 +140,9 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     if out is not None and Path(out).exists() and not Path(out).is_dir():
         raise InputError(f"--out {out}: is a file; name a folder for the result files")
     ignore = split_names(ignore_columns)
+    from pipeline.analyses.bootstrap import check_bootstrap_options
+
+    bootstrap, seed, jobs = check_bootstrap_options(bootstrap, seed, jobs)
     started = time.perf_counter()
 
     from pipeline.stats.fingerprint import fingerprint_inputs
@@ -158,6 +166,11 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         settings.update(_reading_settings(reading))
         if seed is not None:
             settings["seed"] = seed
+        if bootstrap:
+            from pipeline.analyses.bootstrap import fresh_seed
+
+            settings["bootstrap"] = bootstrap
+            settings.setdefault("seed", fresh_seed())
         with _gc_paused():
             result = _learn(intake.design, intake.moments, intake=intake, store=store,
                             fingerprint=fingerprint, alpha=alpha, max_condition_size=max_k,
@@ -166,6 +179,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
             result.run["from_store"] = from_store
             if notice:
                 result.run["notice"] = notice
+            if bootstrap:
+                _add_bootstrap(result, paths, intake, options, reading, jobs, progress)
             result.run["seconds"] = time.perf_counter() - started
             # where the result comes from: inputs (sizes, hashes), version, date, command
             from pipeline.provenance import provenance
@@ -237,6 +252,29 @@ def _changed_inputs(store, fingerprint: str, out) -> str | None:
         return None
     return (f"the inputs differ from those of the last run in {out} (a file or a reading "
             "option changed): the data were read again; earlier tests stay in the store")
+
+
+def _add_bootstrap(result: LearnResult, paths: list[Path], intake, options: dict[str, Any],
+                   reading, jobs: int, progress: ProgressArg) -> None:
+    """Bootstrap frequencies for every edge of `result` (`pipeline.analyses.bootstrap`)."""
+    from pipeline.analyses.bootstrap import bootstrap
+
+    s = result.settings
+    relearn = {k: s[k] for k in ("alpha", "max_condition_size", "targets", "collider_rule",
+                                 "test")}
+    if callable(progress):
+        bars: Any = nullcontext(progress)
+    else:
+        from pipeline.progress import Progress
+
+        bars = Progress(enabled=None if progress else False)
+    with bars as fn:
+        result.add_bootstrap(bootstrap(
+            paths, intake.design, intake.moments, result.edge_records,
+            resamples=s["bootstrap"], seed=s["seed"], jobs=jobs, settings=relearn,
+            regime_column=options["regime_column"], drop_missing=options["drop_missing"],
+            test=options["test"], reading=reading, progress=fn))
+    result.run["jobs"] = jobs
 
 
 def _reading_settings(reading) -> dict:

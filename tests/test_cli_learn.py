@@ -53,7 +53,9 @@ def test_a_changed_input_under_the_same_out_is_said(tmp_path, files, capsys):
 
 @pytest.mark.parametrize("extra, culprit", [
     (["--alpha", "2"], "--alpha"),
-    (["--bootstrap", "10"], "--bootstrap"),
+    (["--bootstrap", "-1"], "--bootstrap"),
+    (["--bootstrap", "3", "--jobs", "0"], "--jobs"),
+    (["--bootstrap", "3", "--seed", "-2"], "--seed"),
     (["--engine", "dask"], "--engine dask"),
     (["--targets", "guess"], "--targets"),
     (["--collider-rule", "vote"], "--collider-rule"),

@@ -24,11 +24,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="take declared targets as given, or learn them all from the data "
                              "(regimes with known=no are always learned; default declared)")
     parser.add_argument("--bootstrap", type=int, default=0, metavar="B",
-                        help="bootstrap resamples for edge stability (not available yet: 0)")
+                        help="bootstrap resamples of the rows within each regime, each "
+                             "relearned: adjacency and orientation frequencies of every edge "
+                             "(default 0: none)")
     parser.add_argument("--seed", type=int, default=None, metavar="S",
-                        help="seed of the random number generator")
+                        help="seed of the bootstrap (default: a fresh one, recorded in "
+                             "result.json)")
     parser.add_argument("--jobs", type=int, default=1, metavar="N",
-                        help="parallel workers (1 for now)")
+                        help="processes relearning the bootstrap resamples (default 1; the "
+                             "result does not depend on it)")
     parser.add_argument("--engine", default="local", help=argparse.SUPPRESS)
     parser.add_argument("--scheduler", metavar="ADDRESS", help=argparse.SUPPRESS)
     parser.add_argument("--test", default="gaussian", metavar="|".join(TESTS),
@@ -39,11 +43,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def _check_unsupported(args: argparse.Namespace) -> None:
     """Options the contract names but this version cannot honour: refuse, don't ignore."""
-    if args.bootstrap is not None and int(args.bootstrap) > 0:
-        raise InputError(f"--bootstrap {args.bootstrap}: the bootstrap is not supported yet; "
-                         f"leave it at 0")
     if args.bootstrap is not None and int(args.bootstrap) < 0:
         raise InputError(f"--bootstrap {args.bootstrap}: expected a whole number >= 0")
+    if args.seed is not None and int(args.seed) < 0:
+        raise InputError(f"--seed {args.seed}: expected a whole number >= 0")
     if args.engine not in ("local", "dask"):
         raise InputError(f"--engine {args.engine}: expected local or dask")
     if args.engine == "dask":
@@ -71,7 +74,8 @@ def run(args: argparse.Namespace) -> int:
         result = learn(inputs.data, inputs.regimes, out=args.out, alpha=args.alpha,
                        max_condition_size=args.max_condition_size, targets=args.targets,
                        test=args.test, collider_rule=args.collider_rule, seed=args.seed,
-                       progress=bars, **inputs.options)
+                       bootstrap=args.bootstrap or 0, jobs=args.jobs or 1, progress=bars,
+                       **inputs.options)
     if result.run.get("notice"):
         from rich.markup import escape
 
@@ -86,10 +90,10 @@ def print_files(out: Path, console) -> None:
     """Where the files are, and the report's path."""
     from rich.markup import escape
 
-    from pipeline.results.files import RESULT_FILES
+    from pipeline.results.files import BOOTSTRAP_FILE, RESULT_FILES
     from pipeline.workflow import STORE_NAME
 
-    present = [n for n in (*RESULT_FILES, STORE_NAME) if (out / n).is_file()]
+    present = [n for n in (*RESULT_FILES, BOOTSTRAP_FILE, STORE_NAME) if (out / n).is_file()]
     console.print(f"results in {escape(str(out))}/: {', '.join(present)}", highlight=False)
     console.print(f"[bold]report:[/bold] {escape(str((out / 'report.html').resolve()))}",
                   highlight=False)

@@ -38,11 +38,13 @@ import html
 import itertools
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 from pipeline.results.layout import Layout, Style, components, layered_layout, short_label
 from pipeline.results.schema import EdgeRecord
 
-__all__ = ["graph_svg", "graph_section", "MAX_DRAWN", "MAX_WITH_ISOLATED", "COLOURS"]
+__all__ = ["graph_svg", "graph_section", "graph_geometry", "Geometry", "MAX_DRAWN",
+           "MAX_WITH_ISOLATED", "COLOURS"]
 
 #: Above this many variables the report shows no drawing (graph.graphml is for them).
 MAX_DRAWN = 400
@@ -89,23 +91,7 @@ def graph_svg(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int =
         If `nodes` repeats a name, an edge names a node not in `nodes`, or `width` is
         below 200.
     """
-    nodes = [str(n) for n in nodes]
-    _validate(nodes, edges, width)
-    n = len(nodes)
-    # 0. sizes by the number of variables
-    font = 12 if n <= 100 else (10 if n <= MAX_WITH_ISOLATED else 9)
-    style = Style(font=font, box_h=round(font * 2.0), layer_gap=round(font * 5.4),
-                   sep=round(font * (2.0 if n <= 100 else 1.2)))
-    connected = {e.source for e in edges} | {e.target for e in edges}
-    isolated = [v for v in nodes if v not in connected]
-    if n > MAX_WITH_ISOLATED:
-        isolated = []
-    # 1-4. a layered layout of each connected part, largest first
-    dummies = itertools.count()  # dummy points are numbered across the parts
-    layouts = [layered_layout(part_nodes, part_edges, style, width - 2 * style.margin, dummies)
-               for part_nodes, part_edges in components([v for v in nodes if v in connected],
-                                                         edges)]
-    return _render(layouts, edges, isolated, style, width)
+    return _svg(graph_geometry(nodes, edges, width=width))
 
 
 def graph_section(nodes: Sequence[str], edges: Sequence[EdgeRecord], *, width: int = 900) -> str:
@@ -257,11 +243,57 @@ def _isolated_rows(isolated: list[str], style: Style, total_w: int, y: float
     return out, y + style.box_h / 2
 
 
-def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[str],
-            style: Style, width: int) -> str:
+@dataclass
+class Geometry:
+    """Where every mark of the drawing goes (pixels, y downwards); the SVG and the PNG
+    (`pipeline.results.picture`) are both drawn from it.
+
+    Attributes
+    ----------
+    width, height : int
+    style : Style
+    legend : list of (kind, text, head, x, y), the legend items and their start
+    edges : list of (EdgeRecord, kind, head, points), each edge's polyline
+    nodes : list of (name, cx, cy, box width)
+    isolated_label : (x, y) of the caption above the variables without edges, or None
+    """
+
+    width: int
+    height: int
+    style: Style
+    legend: list[tuple[str, str, bool, float, float]]
+    edges: list[tuple[EdgeRecord, str, bool, list[tuple[float, float]]]]
+    nodes: list[tuple[str, float, float, float]]
+    isolated_label: tuple[float, float] | None
+
+
+def graph_geometry(nodes: Sequence[str], edges: Sequence[EdgeRecord], *,
+                   width: int = 900) -> Geometry:
+    """The positions of every mark of the drawing (see `graph_svg` for the arguments)."""
+    nodes = [str(n) for n in nodes]
+    _validate(nodes, edges, width)
+    n = len(nodes)
+    # 0. sizes by the number of variables
+    font = 12 if n <= 100 else (10 if n <= MAX_WITH_ISOLATED else 9)
+    style = Style(font=font, box_h=round(font * 2.0), layer_gap=round(font * 5.4),
+                  sep=round(font * (2.0 if n <= 100 else 1.2)))
+    connected = {e.source for e in edges} | {e.target for e in edges}
+    isolated = [v for v in nodes if v not in connected]
+    if n > MAX_WITH_ISOLATED:
+        isolated = []
+    # 1-4. a layered layout of each connected part, largest first
+    dummies = itertools.count()  # dummy points are numbered across the parts
+    layouts = [layered_layout(part_nodes, part_edges, style, width - 2 * style.margin, dummies)
+               for part_nodes, part_edges in components([v for v in nodes if v in connected],
+                                                         edges)]
+    return _geometry(layouts, edges, isolated, style, width)
+
+
+def _geometry(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[str],
+              style: Style, width: int) -> Geometry:
     m, f, hh = style.margin, style.font, style.box_h / 2
-    # 1. where everything goes: legend on top (kinds present only), the parts in rows (the
-    #    picture widens if one part is wider than `width`), nodes without edges below
+    # where everything goes: legend on top (kinds present only), the parts in rows (the
+    # picture widens if one part is wider than `width`), nodes without edges below
     legend = [item for item in _LEGEND if item[0] in {_kind(e) for e in edges}]
     top = m + (2 * f if legend else 0)
     xs, ys, total_w, bottom = _pack(layouts, style, width, top)
@@ -277,24 +309,13 @@ def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[s
         else ({}, bottom)
     nodes += [(v, x, y) for v, (x, y) in iso.items()]
     height = int(math.ceil(bottom + m))
-    # 2. the marks: header, arrowheads, legend, edges under the nodes, nodes
-    out = [f"<svg class=\"og-graph\" width=\"{total_w}\" height=\"{height}\" "
-           f"viewBox=\"0 0 {total_w} {height}\" role=\"img\" aria-label=\"drawing of the "
-           f"learned graph\" font-family=\"system-ui, sans-serif\" font-size=\"{f}\">",
-           "<style>.og-edge:hover{stroke-width:4}</style>", "<defs>"]
-    out += [f"<marker id=\"og-head-{kind}\" viewBox=\"0 0 10 10\" refX=\"10\" refY=\"5\" "
-            f"markerWidth=\"5\" markerHeight=\"5\" orient=\"auto-start-reverse\">"
-            f"<path d=\"M0,0 L10,5 L0,10 z\" fill=\"{COLOURS[kind]}\"/></marker>"
-            for kind, _, head in _LEGEND if head]
-    out.append("</defs>")
+    placed_legend = []
     x, y = float(m), m + f / 2
     for kind, text, head in legend:
-        out.append(f"<line class=\"og-legend\" x1=\"{x:.1f}\" y1=\"{y:.1f}\" "
-                   f"x2=\"{x + 28:.1f}\" y2=\"{y:.1f}\" {_stroke(kind, head)}/>"
-                   f"<text x=\"{x + 34:.1f}\" y=\"{y:.1f}\" dominant-baseline=\"central\" "
-                   f"fill=\"#333\">{_e(text)}</text>")
+        placed_legend.append((kind, text, head, x, y))
         x += 34 + 0.62 * f * len(text) + 2 * f
     ports = _ports(chains, xs, widths)
+    lines = []
     for e in edges:
         chain = chains[(e.source, e.target)]
         pts = [(xs[u], ys[u]) for u in chain]
@@ -304,19 +325,48 @@ def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[s
         if chain[0] != e.source:  # the layout arc runs against the edge: draw it forwards
             pts.reverse()
         kind = _kind(e)
+        lines.append((e, kind, e.orientation == "directed", pts))
+    boxes = [(name, cx, cy, style.box_w(short_label(name))) for name, cx, cy in nodes]
+    return Geometry(total_w, height, style, placed_legend, lines, boxes,
+                    (float(m), label_y) if iso else None)
+
+
+def _render(layouts: list[Layout], edges: Sequence[EdgeRecord], isolated: list[str],
+            style: Style, width: int) -> str:
+    return _svg(_geometry(layouts, edges, isolated, style, width))
+
+
+def _svg(g: Geometry) -> str:
+    f, hh = g.style.font, g.style.box_h / 2
+    total_w, height = g.width, g.height
+    # the marks: header, arrowheads, legend, edges under the nodes, nodes
+    out = [f"<svg class=\"og-graph\" width=\"{total_w}\" height=\"{height}\" "
+           f"viewBox=\"0 0 {total_w} {height}\" role=\"img\" aria-label=\"drawing of the "
+           f"learned graph\" font-family=\"system-ui, sans-serif\" font-size=\"{f}\">",
+           "<style>.og-edge:hover{stroke-width:4}</style>", "<defs>"]
+    out += [f"<marker id=\"og-head-{kind}\" viewBox=\"0 0 10 10\" refX=\"10\" refY=\"5\" "
+            f"markerWidth=\"5\" markerHeight=\"5\" orient=\"auto-start-reverse\">"
+            f"<path d=\"M0,0 L10,5 L0,10 z\" fill=\"{COLOURS[kind]}\"/></marker>"
+            for kind, _, head in _LEGEND if head]
+    out.append("</defs>")
+    for kind, text, head, x, y in g.legend:
+        out.append(f"<line class=\"og-legend\" x1=\"{x:.1f}\" y1=\"{y:.1f}\" "
+                   f"x2=\"{x + 28:.1f}\" y2=\"{y:.1f}\" {_stroke(kind, head)}/>"
+                   f"<text x=\"{x + 34:.1f}\" y=\"{y:.1f}\" dominant-baseline=\"central\" "
+                   f"fill=\"#333\">{_e(text)}</text>")
+    for e, kind, head, pts in g.edges:
         d = "M" + " L".join(f"{px:.1f},{py:.1f}" for px, py in pts)
-        head = e.orientation == "directed"
         out.append(f"<path class=\"og-edge og-{kind}\" d=\"{d}\" fill=\"none\" "
                    f"stroke-linejoin=\"round\" {_stroke(kind, head)}>"
                    f"<title>{_e(_tooltip(e))}</title></path>")
-    if iso:
-        out.append(f"<text x=\"{m}\" y=\"{label_y:.1f}\" fill=\"#555\">variables without "
+    if g.isolated_label is not None:
+        lx, ly = g.isolated_label
+        out.append(f"<text x=\"{lx:g}\" y=\"{ly:.1f}\" fill=\"#555\">variables without "
                    f"any edge:</text>")
-    for name, cx, cy in nodes:
-        w = style.box_w(short_label(name))
+    for name, cx, cy, w in g.nodes:
         out.append(f"<g class=\"og-node\"><title>{_e(name)}</title>"
                    f"<rect class=\"og-box\" x=\"{cx - w / 2:.1f}\" y=\"{cy - hh:.1f}\" "
-                   f"width=\"{w:.1f}\" height=\"{style.box_h}\" rx=\"{hh / 2:.1f}\" "
+                   f"width=\"{w:.1f}\" height=\"{g.style.box_h}\" rx=\"{hh / 2:.1f}\" "
                    f"fill=\"#ffffff\" stroke=\"#333333\" stroke-width=\"1.2\"/>"
                    f"<text x=\"{cx:.1f}\" y=\"{cy:.1f}\" text-anchor=\"middle\" "
                    f"dominant-baseline=\"central\" fill=\"#111\">"

@@ -17,8 +17,9 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from pipeline.errors import InputError
-from pipeline.fileio import write_text
+from pipeline.fileio import atomic_write, write_text
 from pipeline.results.check import CheckResult
+from pipeline.results.drawing import MAX_DRAWN
 from pipeline.results.report import render_report
 from pipeline.results.schema import ResultRecord
 from pipeline.results.tables import edges_csv, removed_csv
@@ -26,15 +27,19 @@ from pipeline.results.tables import edges_csv, removed_csv
 if TYPE_CHECKING:  # pragma: no cover
     from pipeline.results.learn import LearnResult
 
-__all__ = ["RESULT_FILES", "RUN_FILES", "archive_previous", "save_learn", "report_sections",
-           "refresh_report"]
+__all__ = ["RESULT_FILES", "RUN_FILES", "BOOTSTRAP_FILE", "archive_previous", "save_learn",
+           "report_sections", "refresh_report"]
 
-#: The files `save_learn` writes.
+#: The files `save_learn` writes (graph.png up to `MAX_DRAWN` variables; bootstrap.csv
+#: with ``--bootstrap``, see `BOOTSTRAP_FILE`).
 RESULT_FILES = ("result.json", "edges.csv", "removed.csv", "graph.graphml", "check.json",
-                "response.csv", "report.html")
+                "response.csv", "report.html", "graph.png")
+#: The pair table of the bootstrap, written by `save_learn` when resamples were run.
+BOOTSTRAP_FILE = "bootstrap.csv"
+_BOOTSTRAP_TITLE = "Bootstrap: edge stability under resampling"
 #: Files of an earlier run that go to history/ with them (other commands add them to DIR).
-RUN_FILES = RESULT_FILES + ("sweep.csv", "sweep.json", "validation.csv", "validation.json",
-                            "plan.json", "graph.png")
+RUN_FILES = RESULT_FILES + (BOOTSTRAP_FILE, "sweep.csv", "sweep.json", "validation.csv",
+                            "validation.json", "plan.json")
 
 
 def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
@@ -53,10 +58,23 @@ def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
         texts["check.json"] = json.dumps(result.check.to_dict(), indent=2,
                                          allow_nan=False) + "\n"
         texts["response.csv"] = result.check.response_csv()
-    texts["report.html"] = render_report(record, result.check)
+    sections = []
+    if result.bootstrap is not None:
+        texts[BOOTSTRAP_FILE] = result.bootstrap.to_csv()
+        sections.append((_BOOTSTRAP_TITLE, result.bootstrap.html_section()))
+    texts["report.html"] = render_report(record, result.check, sections)
+    picture = None
+    if len(record.nodes) <= MAX_DRAWN:
+        from pipeline.results.picture import graph_png
+
+        picture = graph_png(record.nodes, record.edges)
     # 2. move the files of the earlier run aside, 3. write each file atomically
     archive_previous(folder)
-    return {name: write_text(folder / name, text) for name, text in texts.items()}
+    written = {name: write_text(folder / name, text) for name, text in texts.items()}
+    if picture is not None:
+        written["graph.png"] = atomic_write(folder / "graph.png",
+                                            lambda fh: fh.write(picture), binary=True)
+    return written
 
 
 def archive_previous(folder: str | Path, names: tuple[str, ...] = RUN_FILES) -> Path | None:
@@ -98,6 +116,9 @@ def report_sections(folder: str | Path) -> list[tuple[str, str]]:
 
 #: File, section title, module and type that reads it (``.read(path).html_section()``).
 _SECTIONS: tuple[tuple[str, str, str, str], ...] = (
+    (BOOTSTRAP_FILE, _BOOTSTRAP_TITLE, "pipeline.results.bootstrap", "BootstrapResult"),
+    ("sweep.json", "Stability across significance levels", "pipeline.results.sweep",
+     "SweepResult"),
     ("validation.json", "Held-out validation", "pipeline.results.validate", "ValidationResult"),
     ("plan.json", "Which experiment next", "pipeline.results.plan", "PlanResult"),
 )

@@ -36,6 +36,10 @@ __all__ = ["LearnResult"]
 MAX_ROWS = 40
 
 
+def _share(v: float | None) -> str:
+    return "-" if v is None else f"{v:.2f}"
+
+
 @dataclass
 class LearnResult:
     """A learned interventional essential graph with the evidence of each decision.
@@ -59,6 +63,8 @@ class LearnResult:
     provenance : dict
         Where the result comes from: input files with sizes and hashes, tool version,
         date, command line.
+    bootstrap : BootstrapResult or None
+        Bootstrap frequencies of every pair (`add_bootstrap`), when resamples were run.
     """
 
     learned: Learned
@@ -68,6 +74,7 @@ class LearnResult:
     check: Any = None
     run: dict[str, Any] = field(default_factory=dict)
     provenance: dict[str, Any] = field(default_factory=dict)
+    bootstrap: Any = None
 
     # -- numbers ------------------------------------------------------------------------------
     @property
@@ -79,7 +86,18 @@ class LearnResult:
     def edge_records(self) -> list[EdgeRecord]:
         """One `EdgeRecord` per edge (directed first, then undirected)."""
         constant = getattr(self.check, "constant", None)
-        return edge_records(self.learned, self.design, constant)
+        records = edge_records(self.learned, self.design, constant)
+        if self.bootstrap is not None:
+            for e in records:
+                e.bootstrap_adjacency, e.bootstrap_orientation = self.bootstrap.frequencies(
+                    e.source, e.target, e.orientation)
+        return records
+
+    def add_bootstrap(self, bootstrap: Any) -> None:
+        """Attach bootstrap frequencies (a `BootstrapResult`); every edge record gets its
+        ``bootstrap_adjacency`` and ``bootstrap_orientation``."""
+        self.bootstrap = bootstrap
+        self.__dict__.pop("edge_records", None)  # recomputed with the frequencies
 
     @property
     def edges(self) -> pd.DataFrame:
@@ -140,7 +158,9 @@ class LearnResult:
             attrs = {"orientation": e.orientation, "rule": e.rule, "via": list(e.via),
                      "p_adjacency": e.p_adjacency, "p_orientation": e.p_orientation,
                      "conflict": e.conflict, "notes": list(e.notes), "strength": e.strength,
-                     "explanation": e.explanation}
+                     "explanation": e.explanation,
+                     "bootstrap_adjacency": e.bootstrap_adjacency,
+                     "bootstrap_orientation": e.bootstrap_orientation}
             d.add_edge(e.source, e.target, **attrs)
             if e.orientation == "undirected":
                 d.add_edge(e.target, e.source, **attrs)
@@ -183,21 +203,28 @@ class LearnResult:
         shown = edges if max_rows is None else edges[:max_rows]
         t = Table(title="Edges" + (f" (first {max_rows} of {len(edges)}; all in edges.csv)"
                                    if len(shown) < len(edges) else ""))
-        for col in ("edge", "rule", "via", "p adjacency", "strength"):
-            t.add_column(col, justify="right" if col in ("p adjacency", "strength") else "left")
+        boot = self.bootstrap is not None
+        cols = ["edge", "rule", "via", "p adjacency", "strength"]
+        cols += ["boot adj", "boot orient"] if boot else []
+        for col in cols:
+            t.add_column(col, justify="left" if col in ("edge", "rule", "via") else "right")
         for e in shown:
             arrow = "->" if e.orientation == "directed" else "--"
             name = escape(f"{e.source} {arrow} {e.target}")
             if e.conflict:
                 name += " [red](conflict)[/red]"
-            t.add_row(name, escape(e.rule), escape(", ".join(e.via) or "-"),
-                      format_p(e.p_adjacency),
-                      "-" if e.strength is None else f"{e.strength:.1f}")
+            cells = [name, escape(e.rule), escape(", ".join(e.via) or "-"),
+                     format_p(e.p_adjacency), "-" if e.strength is None else f"{e.strength:.1f}"]
+            if boot:
+                cells += [_share(e.bootstrap_adjacency), _share(e.bootstrap_orientation)]
+            t.add_row(*cells)
         console.print(t)
         if any(e.orientation == "directed" for e in shown):
             console.print("strength: -log10 of the weakest test behind the direction (2: "
                           "p = 0.01); why each edge has its direction: edges.csv "
                           "(explanation) and report.html", highlight=False)
+        if boot:
+            self.bootstrap.print(console)
         t = Table(title="Regimes: declared and detected targets")
         for col in ("regime", "samples", "declared", "known", "detected"):
             t.add_column(col, justify="right" if col == "samples" else "left")

@@ -16,7 +16,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from pipeline.results.check import CheckResult
-from pipeline.results.drawing import graph_section
+from pipeline.results.drawing import MAX_DRAWN, graph_section
 from pipeline.results.formatting import format_count
 from pipeline.results.schema import ResultRecord
 
@@ -41,6 +41,13 @@ h1{font-size:1.6em}h2{font-size:1.25em;margin-top:1.8em;border-bottom:1px solid 
 table{border-collapse:collapse;margin:.6em 0;font-size:.92em}
 th,td{border:1px solid #d0d0d0;padding:.25em .6em;text-align:left;vertical-align:top}
 th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
+td.edge,th.edge{white-space:nowrap}td.state{text-align:center}td.unstable{color:#9a4a00}
+.scroll{overflow:auto;max-width:100%;margin:.6em 0}.scroll>table{margin:0}
+.scroll.tall{max-height:34em}
+.scroll.tall thead th{position:sticky;top:0;z-index:1}
+table.matrix td:first-child,table.matrix th:first-child{position:sticky;left:0;
+background:#f7f7f7;white-space:nowrap;z-index:2}
+table.matrix td{white-space:nowrap}
 .warn{background:#fff6e0;border-left:4px solid #e0a000;padding:.4em .8em;margin:.3em 0}
 .bad{background:#fde8e8;border-left:4px solid #c03030;padding:.4em .8em}
 .caution{background:#eef3fb;border-left:4px solid #3b6bb0;padding:.4em .8em;margin:.3em 0}
@@ -59,13 +66,29 @@ def _p(v: float | None) -> str:
     return "&lt; 1e-300" if v == 0 else f"{v:.2g}"
 
 
-def _table(header: list[str], rows: list[list[str]], numeric: set[int] = frozenset()) -> str:
+def _table(header: list[str], rows: list[list[str]], numeric: set[int] = frozenset(), *,
+           classes: dict[int, str] | None = None, table_id: str = "", table_class: str = "",
+           scroll: str = "") -> str:
+    """An HTML table of already escaped cells; `scroll` wraps it in a box that scrolls
+    ("wide": sideways, "tall": both ways with the header kept in view)."""
+    classes = dict(classes or {})
+    for i in numeric:
+        classes[i] = "num"
     head = "".join(f"<th>{_e(h)}</th>" for h in header)
     body = "".join(
-        "<tr>" + "".join(f"<td class=\"num\">{c}</td>" if i in numeric else f"<td>{c}</td>"
-                         for i, c in enumerate(row)) + "</tr>"
+        "<tr>" + "".join(f"<td class=\"{classes[i]}\">{c}</td>" if i in classes
+                         else f"<td>{c}</td>" for i, c in enumerate(row)) + "</tr>"
         for row in rows)
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+    attrs = (f" id=\"{table_id}\"" if table_id else "") + \
+        (f" class=\"{table_class}\"" if table_class else "")
+    table = f"<table{attrs}><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+    if scroll:
+        return f"<div class=\"scroll{' tall' if scroll == 'tall' else ''}\">{table}</div>"
+    return table
+
+
+def _share(v: float | None) -> str:
+    return "&ndash;" if v is None else f"{v:.2f}"
 
 
 def _response(check: CheckResult) -> str:
@@ -86,7 +109,8 @@ def _response(check: CheckResult) -> str:
             cells.append(f"<span style=\"background:{colour};padding:0 .3em\">{s:+.2f}{mark}"
                          f"</span>")
         rows.append(cells)
-    return _table(["regime"] + list(resp.variables), rows)
+    return _table(["regime"] + list(resp.variables), rows, table_id="response",
+                  table_class="matrix", scroll="tall")
 
 
 def _edge_text(e) -> str:
@@ -132,7 +156,8 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
              f"(reference: {_e(', '.join(ref))}). "
              f"<b>{n_dir + n_und}</b> edges: <b>{n_dir}</b> directed, <b>{n_und}</b> "
              f"undirected. DAGs still possible (class size): "
-             f"<b>{_e(format_count(record.class_size))}</b>.</p>"]
+             f"<b>{_e(format_count(record.class_size))}</b>.</p>",
+             _provenance(record.provenance)]
     if not record.valid:
         parts.append("<p class=\"bad\">The learned graph is not a valid essential graph: "
                      + _e("; ".join(record.problems)) + "</p>")
@@ -143,31 +168,44 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
                      f"{', ...' if len(conflicts) > 8 else ''}). The graph shows one consistent "
                      f"answer that keeps the stronger evidence; these edges are marked "
                      f"<i>conflict</i> and their notes say what was set aside.</p>")
-    parts.append(_provenance(record.provenance))
 
     # drawing
     parts.append("<h2>Graph</h2>")
     parts.append(graph_section(record.nodes, record.edges))
+    if record.edges and len(record.nodes) <= MAX_DRAWN:
+        parts.append("<p class=\"small\">The same drawing as a picture for slides: "
+                     "<a href=\"graph.png\">graph.png</a>, beside this page.</p>")
 
     # edges
+    boot = any(e.bootstrap_adjacency is not None for e in record.edges)
     rows = []
     for e in record.edges:
         arrow = "&rarr;" if e.orientation == "directed" else "&mdash;"
         why = e.explanation.split(": ", 1)[-1] if e.explanation else ""
-        rows.append([f"{_e(e.source)} {arrow} {_e(e.target)}", _e(e.rule),
-                     _e(", ".join(e.via)) or "&ndash;", _p(e.p_adjacency),
-                     "&ndash;" if e.strength is None else f"{e.strength:.1f}",
-                     "<b>yes</b>" if e.conflict else "", _e(why), _e("; ".join(e.notes))])
+        row = [f"{_e(e.source)} {arrow} {_e(e.target)}", _e(e.rule),
+               _e(", ".join(e.via)) or "&ndash;", _p(e.p_adjacency),
+               "&ndash;" if e.strength is None else f"{e.strength:.1f}"]
+        if boot:
+            row += [_share(e.bootstrap_adjacency), _share(e.bootstrap_orientation)]
+        rows.append(row + ["<b>yes</b>" if e.conflict else "", _e(why),
+                           _e("; ".join(e.notes))])
+    header = ["edge", "rule", "via", "p adjacency", "strength"]
+    header += ["bootstrap adjacency", "bootstrap orientation"] if boot else []
     parts.append("<h2>Edges</h2>")
-    parts.append(_table(["edge", "rule", "via", "p adjacency", "strength", "conflict",
-                         "why", "notes"], rows, numeric={3, 4}) if rows
+    parts.append(_table(header + ["conflict", "why", "notes"], rows,
+                        numeric={3, 4, 5, 6} if boot else {3, 4}, classes={0: "edge"},
+                        table_id="edges", scroll="tall") if rows
                  else "<p>No edge was found.</p>")
     parts.append("<p class=\"small\">p adjacency: the largest p-value of the tests that kept "
                  "the edge. strength: how firmly the data support the direction, as "
                  "&minus;log10 of the weakest test that had to find a dependence for it (2 "
                  "means p = 0.01; 0: no support, the direction only keeps the graph "
                  "consistent); for a direction that follows from other arrows, the weakest of "
-                 "those. The full chain of tests behind each arrow is in result.json.</p>")
+                 "those. The full chain of tests behind each arrow is in result.json."
+                 + (" Bootstrap adjacency: the share of resamples in which the pair was "
+                    "adjacent; bootstrap orientation: the share in which it had this "
+                    "orientation (for an undirected edge: present and undirected)."
+                    if boot else "") + "</p>")
 
     # regimes and targets
     rows = [[_e(r.name), str(r.samples), _e(";".join(r.targets)) or "&ndash;",
@@ -176,7 +214,8 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
             for r in record.regimes]
     parts.append("<h2>Regimes</h2>")
     parts.append(_table(["regime", "samples", "declared targets", "known", "detected targets"],
-                        rows, numeric={1}))
+                        rows, numeric={1}, classes={0: "edge"}, table_id="regimes",
+                        scroll="tall"))
     off = [f for f in record.findings if f.get("status") == "off-target"]
     if off:
         parts.append("<p>Off-target findings (no conditioning set made them invariant):</p>"
@@ -189,7 +228,8 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
                  _p(t.conditional_pvalue), _e(t.verdict)] for t in check.targets]
         parts.append("<h2>Target check</h2>")
         parts.append(_table(["regime", "target", "known", "shift", "p", "p given neighbours",
-                             "verdict"], rows, numeric={3, 4, 5})
+                             "verdict"], rows, numeric={3, 4, 5}, classes={0: "edge"},
+                            table_id="targets", scroll="tall")
                      if rows else "<p>No declared targets.</p>")
         parts.append("<h2>Response matrix</h2><p class=\"small\">Standardized mean shift of "
                      "each variable in each regime against the reference; * marks a "
@@ -197,7 +237,7 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
                      "down.</p>")
         parts.append(_response(check))
     for title, fragment in sections:
-        parts.append(f"<h2>{_e(title)}</h2>")
+        parts.append(f"<h2>{_e(title)}</h2>")  # the fragment escapes its own strings
         parts.append(fragment)
 
     # warnings, settings, cautions
@@ -205,7 +245,8 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
     parts.append("".join(f"<div class=\"warn\">{_e(w)}</div>" for w in record.warnings)
                  or "<p>None.</p>")
     parts.append("<h2>Settings</h2>")
-    parts.append(_table(["option", "value"], [[_e(k), _e(v)] for k, v in s.items()]))
+    parts.append(_table(["option", "value"], [[_e(k), _e(v)] for k, v in s.items()],
+                        scroll="wide"))
     if record.tests_per_level:
         parts.append(_table(["conditioning-set size", "tests"],
                             [[_e(k), _e(v)] for k, v in record.tests_per_level.items()],
