@@ -1,4 +1,4 @@
-"""Bootstrap resamples as weighted moments: against explicit resampling with numpy."""
+"""Half-sample resamples as weighted moments: against explicit resampling with numpy."""
 
 from __future__ import annotations
 
@@ -34,11 +34,11 @@ def test_weighted_moments_equal_those_of_the_explicit_resample(monkeypatch, bloc
         for k in range(3):
             rows = values[codes == k]  # the regime's rows in file order
             w = _counts_of_regime(7, b, k, int(sizes[k]))
-            explicit = np.repeat(rows, w, axis=0)  # the resample, row i drawn w_i times
-            assert got[b].count[k] == len(explicit) == sizes[k]
+            explicit = np.repeat(rows, w, axis=0)  # the resample: the rows drawn
+            assert got[b].count[k] == len(explicit) == sizes[k] // 2
             # reference: numpy's mean and covariance of the resampled rows
             np.testing.assert_allclose(got[b].mean[k], explicit.mean(axis=0), rtol=1e-12)
-            np.testing.assert_allclose(got[b].scatter[k] / (sizes[k] - 1),
+            np.testing.assert_allclose(got[b].scatter[k] / (len(explicit) - 1),
                                        np.cov(explicit, rowvar=False), rtol=1e-9, atol=1e-12)
             # third and fourth central moment sums, against numpy on the resampled rows
             d = explicit - explicit.mean(axis=0)
@@ -64,17 +64,19 @@ def test_counts_do_not_depend_on_chunking(monkeypatch):
             np.testing.assert_allclose(m0.scatter, m1.scatter, rtol=1e-10)
 
 
-def test_counts_are_a_multinomial_resample(monkeypatch):
-    # multinomial(n, 1/n each): every count sums to n, and each row is drawn once on average
-    # with variance 1 - 1/n (common practice)
+def test_counts_are_a_uniform_half_sample(monkeypatch):
+    # half of the n rows without replacement: weights 0 or 1 summing to n // 2, and every
+    # row drawn with chance (n // 2) / n (the hypergeometric law: common practice)
     monkeypatch.setattr(rs, "BLOCK", 64)
-    n = 200
+    n = 201
     draws = np.stack([_counts_of_regime(11, b, 0, n) for b in range(400)])
-    assert (draws.sum(axis=1) == n).all()
-    assert abs(draws.mean() - 1.0) < 1e-12  # exact: sum n per resample
-    assert abs(draws.var() - (1 - 1 / n)) < 0.05
-    # the chance that a given row is left out of a resample is (1 - 1/n)^n, about 1/e
-    assert abs((draws == 0).mean() - (1 - 1 / n) ** n) < 0.02
+    assert set(np.unique(draws)) <= {0, 1}
+    assert (draws.sum(axis=1) == n // 2).all()
+    share = draws.mean(axis=0)  # per row, over 400 resamples: binomial sd about 0.025
+    assert abs(share.mean() - (n // 2) / n) < 1e-12
+    assert np.abs(share - (n // 2) / n).max() < 0.1
+    # rows of different blocks are drawn alike (the split over blocks is not biased)
+    assert abs(share[:64].mean() - share[128:].mean()) < 0.03
 
 
 def test_different_seeds_differ_and_same_seed_repeats():

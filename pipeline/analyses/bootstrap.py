@@ -1,9 +1,11 @@
 """Bootstrap frequencies of the edges of a learned graph.
 
-The stability of an edge is the share of bootstrap resamples of the data whose relearned
-graph has it (Friedman, Goldszmidt & Wyner 1999). Each resample draws, within every
-regime, as many rows as the regime has, with replacement (Efron 1979); the regimes keep
-their sizes, so the design is that of the original experiment. The learner sees data only
+The stability of an edge is the share of resamples of the data whose relearned graph has
+it (Friedman, Goldszmidt & Wyner 1999). Each resample keeps half of the rows of every
+regime, drawn without replacement (subsampling, as in stability selection: Meinshausen &
+Buhlmann 2010; see `pipeline.stats.resample` for why not the n-out-of-n bootstrap of
+Efron 1979: its repeated rows make every test reject too often); the regimes keep their
+proportions, so the design is that of the original experiment. The learner sees data only
 through sufficient statistics, so a resample is a set of weighted moments
 (`pipeline.stats.resample`): one streaming pass over the data files gives those of all B
 resamples, then each resample is relearned with the settings of the original run (same
@@ -24,13 +26,11 @@ reweight them (the ranks are not recomputed within each resample).
 
 Resamples never write to the test store.
 
-A caution on reading the frequencies: a resample repeats rows, so under independence a
-test statistic computed on it varies about twice as much as on fresh data of the same size
-(its own sampling noise plus the resampling noise), and a test at level alpha rejects more
-often than alpha. Resampled graphs are therefore denser than the original one, and the
-more so for statistics that add up many regimes (the sum of squares of the stratified
-Fisher z). The frequencies rank the edges by how reliably the data support them (the use
-of Friedman, Goldszmidt & Wyner); they are not probabilities that an edge is true.
+A caution on reading the frequencies: a half-sample has half the rows, so its tests have
+less power than those of the whole data, and a weak true edge is found in fewer resamples
+than its presence in the result suggests. The frequencies rank the edges by how reliably
+the data support them (the use of Friedman, Goldszmidt & Wyner); they are not
+probabilities that an edge is true.
 
 References
 ----------
@@ -38,6 +38,8 @@ References
    bootstrap approach. Proceedings of UAI, 196-205.
 2. B. Efron (1979). Bootstrap methods: another look at the jackknife. Annals of
    Statistics 7(1), 1-26.
+3. N. Meinshausen, P. Buhlmann (2010). Stability selection. Journal of the Royal
+   Statistical Society B 72(4), 417-473.
 """
 
 from __future__ import annotations

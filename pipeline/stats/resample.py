@@ -1,38 +1,50 @@
-"""Bootstrap resamples of rows within each regime, as weighted sufficient statistics.
+"""Resamples of rows within each regime, as weighted sufficient statistics.
 
-A nonparametric bootstrap resample of a regime with ``n_k`` rows draws ``n_k`` rows with
-replacement (Efron 1979). Row ``i`` then appears ``w_i`` times, with the counts
-``(w_1, ..., w_{n_k})`` multinomial with ``n_k`` trials and equal probabilities. Every
-test reads only per-regime counts, means, centred scatter matrices and per-variable third
-and fourth central moment sums, so a resample is fully described by the *weighted* moments
-of the original rows: ``n = sum w_i``, ``mean = sum w_i x_i / n``,
+Each resample keeps half of the rows of every regime, drawn without replacement
+(subsampling: Politis & Romano 1994; the half-samples of stability selection,
+Meinshausen & Buhlmann 2010). It is not the n-out-of-n bootstrap (Efron 1979): a bootstrap
+resample repeats rows, so a test computed on it sees about twice the variance its count
+implies, and the tests of a resample reject too often (measured: with 21 regimes of 300
+rows, a resampled graph of 100 variables had 317 edges where the data gave 94). A
+half-sample is a sample of the regime's law with its true count, so every test keeps its
+level, and the frequencies rank the edges by how often half of the data find them.
+
+Row ``i`` of a resample has the weight ``w_i`` (1 if drawn, 0 if not). Every test reads
+only per-regime counts, means, centred scatter matrices and per-variable third and fourth
+central moment sums, so a resample is fully described by the *weighted* moments of the
+original rows: ``n = sum w_i``, ``mean = sum w_i x_i / n``,
 ``scatter = sum w_i (x_i - mean)(x_i - mean)^T``, ``m3 = sum w_i (x_i - mean)^3`` and
 ``m4 = sum w_i (x_i - mean)^4`` per variable. `ResampleAccumulator` computes those of B
 resamples in one streaming pass over chunks of rows (memory O(B K p^2), whatever the number
 of rows), merging chunks with the pairwise updates of Chan, Golub & LeVeque (1979) and
 Pebay (2008), which hold for integer weights unchanged.
 
-The counts of a row depend only on the seed, the resample, the regime and the row's
-position among the rows of its regime: the ``n_k`` draws of resample ``b`` in regime
-``k`` are first split over consecutive blocks of `BLOCK` rows (multinomial in the block
-sizes, generator ``SeedSequence(seed, spawn_key=(b, k))``), then over the rows of each
-block ``j`` (generator ``SeedSequence(seed, spawn_key=(b, k, j))``). By the conditional
-structure of the multinomial law this is exactly the multinomial resample, and the
-result does not depend on how the files are cut into chunks, nor on any parallelism.
+The weights of a row depend only on the seed, the resample, the regime and the row's
+position among the rows of its regime: the ``n_k // 2`` rows drawn in resample ``b`` of
+regime ``k`` are first split over consecutive blocks of `BLOCK` rows (multivariate
+hypergeometric in the block sizes, generator ``SeedSequence(seed, spawn_key=(b, k))``),
+then drawn without replacement within each block ``j`` (generator
+``SeedSequence(seed, spawn_key=(b, k, j))``). By the conditional structure of the
+hypergeometric law this is exactly a uniform half-sample, and the result does not depend
+on how the files are cut into chunks, nor on any parallelism.
 
 >>> import numpy as np
 >>> acc = ResampleAccumulator(["x"], ["ctrl"], counts=[3], resamples=2, seed=1)
 >>> acc.update(np.array([0, 0, 0]), np.array([[1.0], [2.0], [3.0]]))
 >>> [int(m.count[0]) for m in acc.result()]
-[3, 3]
+[1, 1]
 
 References
 ----------
-1. B. Efron (1979). Bootstrap methods: another look at the jackknife. Annals of
+1. D. N. Politis, J. P. Romano (1994). Large sample confidence regions based on
+   subsamples under minimal assumptions. Annals of Statistics 22(4), 2031-2050.
+2. N. Meinshausen, P. Buhlmann (2010). Stability selection. Journal of the Royal
+   Statistical Society B 72(4), 417-473.
+3. B. Efron (1979). Bootstrap methods: another look at the jackknife. Annals of
    Statistics 7(1), 1-26.
-2. T. F. Chan, G. H. Golub, R. J. LeVeque (1979). Updating formulae and a pairwise
+4. T. F. Chan, G. H. Golub, R. J. LeVeque (1979). Updating formulae and a pairwise
    algorithm for computing sample variances. Technical report STAN-CS-79-773.
-3. P. Pebay (2008). Formulas for robust, one-pass parallel computation of covariances and
+5. P. Pebay (2008). Formulas for robust, one-pass parallel computation of covariances and
    arbitrary-order statistical moments. Sandia report SAND2008-6212.
 """
 
@@ -52,7 +64,7 @@ BLOCK = 4096
 
 
 def resample_counts(seed: int, resample: int, regime: int, n: int, block: int) -> np.ndarray:
-    """How often each row of block `block` of a regime with `n` rows is drawn, shape (size,).
+    """Whether each row of block `block` of a regime with `n` rows is drawn (1) or not (0).
 
     Parameters
     ----------
@@ -66,12 +78,16 @@ def resample_counts(seed: int, resample: int, regime: int, n: int, block: int) -
         Index of the block of `BLOCK` consecutive rows of the regime.
     """
     sizes = _block_sizes(n)
+    half = n // 2
     split = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(resample, regime)))
-    draws = split.multinomial(n, sizes / n) if len(sizes) > 1 else np.array([n])
+    draws = (split.multivariate_hypergeometric(sizes, half) if len(sizes) > 1
+             else np.array([half]))
     rng = np.random.default_rng(np.random.SeedSequence(seed,
                                                        spawn_key=(resample, regime, block)))
     size = int(sizes[block])
-    return rng.multinomial(int(draws[block]), np.full(size, 1.0 / size))
+    out = np.zeros(size, dtype=np.int64)
+    out[rng.choice(size, int(draws[block]), replace=False)] = 1
+    return out
 
 
 def _block_sizes(n: int) -> np.ndarray:
