@@ -126,7 +126,7 @@ def main(argv: list[str] | None = None) -> int:
             lambda a=x[:k], c=cond[:k]: _naive_invariance(samples["ctrl"], samples["kd_1"],
                                                           a, c), 1) / k
         rows.append(("ci (Fisher z)", l_size, args.tests, t_ci, t_naive_ci))
-        rows.append(("invariance (LR)", l_size, args.tests, t_inv, t_naive_inv))
+        rows.append(("invariance (Chow + variance)", l_size, args.tests, t_inv, t_naive_inv))
 
     header = ("| test | \\|S\\| | tests per call | median wall s | tests/s (wall) "
               "| tests/s (CPU) | naive s/test | naive tests/s | speed-up (wall) |")

@@ -153,7 +153,7 @@ class _Pair:
         # too few samples to estimate |S| + 1 coefficients and a variance: untestable
         if min(n_ref, n_k) < q + 1:
             return TestResults(statistic=np.full(m, np.nan), pvalue=np.ones(m))
-        for sl in _chunks(m, 3):
+        for sl in _chunks(m, 1 if l_size == 0 else 3):
             xs = x[sl]
             # 1. residual sums of squares (correlation units, 1 - R^2, times S_xx)
             unit = _eliminate(self.flat, self.p, [xs], cond[sl])[0, 0]
@@ -177,7 +177,17 @@ class _Pair:
                 shrink = 2.0 / (2.0 + kappa)
                 d_ref, d_k = (n_ref - q) * shrink, (n_k - q) * shrink
                 ratio = (rss[:, 1] / (n_k - q)) / (rss[:, 0] / (n_ref - q))
-                p_var = 2.0 * np.minimum(fdtr(d_k, d_ref, ratio), fdtrc(d_k, d_ref, ratio))
+                # two-sided: the lower tail, and the upper tail where that is the smaller
+                # (computed directly there, for its precision; one pass of the F law where
+                # a second would double the cost)
+                lower = fdtr(d_k, d_ref, ratio)
+                upper = lower > 0.5
+                tail = lower.copy()
+                if upper.any():
+                    dk = d_k if np.ndim(d_k) == 0 else d_k[upper]
+                    dr = d_ref if np.ndim(d_ref) == 0 else d_ref[upper]
+                    tail[upper] = fdtrc(dk, dr, ratio[upper])
+                p_var = 2.0 * tail
             p_coef = np.where(np.isnan(p_coef), 1.0, p_coef)
             p_var = np.minimum(np.where(np.isnan(p_var), 1.0, p_var), 1.0)
             p = cauchy_combination(p_coef, p_var)
