@@ -17,7 +17,8 @@ from pipeline.errors import InputError, nearest_names
 
 __all__ = ["TARGET_MODES", "TESTS", "COLLIDER_RULES", "ENGINES", "SIMULATION_KINDS",
            "check_alpha", "check_choice", "check_max_condition_size", "check_whole",
-           "check_data_paths", "check_regimes_path", "split_names"]
+           "check_data_paths", "check_regimes_path", "split_names",
+           "check_bootstrap_options"]
 
 #: ``--targets``: take declared targets as given, or learn every regime's targets.
 TARGET_MODES = ("declared", "learn")
@@ -99,3 +100,11 @@ def check_regimes_path(regimes: Any) -> Path:
     if not r.is_file():
         raise InputError(f"regimes file {r}: no such file; check the path given to --regimes")
     return r
+
+
+def check_bootstrap_options(resamples: Any, seed: Any, jobs: Any) -> tuple[int, int | None, int]:
+    """``--bootstrap`` >= 0, ``--seed`` a whole number >= 0 or None, ``--jobs`` >= 1."""
+    resamples = check_whole("--bootstrap", resamples, 0)
+    if seed is not None:
+        seed = check_whole("--seed", seed, 0)
+    return resamples, seed, check_whole("--jobs", jobs, 1)

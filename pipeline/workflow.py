@@ -33,6 +33,7 @@ from pipeline.options import (
     TARGET_MODES,
     TESTS,
     check_alpha,
+    check_bootstrap_options,
     check_choice,
     check_data_paths,
     check_max_condition_size,
@@ -88,7 +89,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
           test: str = "gaussian", collider_rule: str = "majority", seed: int | None = None,
           bootstrap: int = 0, jobs: int = 1, progress: ProgressArg = False,
           decimal: str | None = None, regime_from: str | None = None, sheet: str | None = None,
-          genes: str | Path | Sequence[str] | None = None) -> LearnResult:
+          genes: str | Path | Sequence[str] | None = None, picture: bool = False
+          ) -> LearnResult:
     """Learn the interventional essential graph of measurement files, with per-edge evidence.
 
     Parameters
@@ -120,6 +122,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
         True: progress bars on a terminal; a callable receives ``(label, done, total)``.
     decimal, regime_from, sheet, genes
         How to read the files, as for `pipeline.intake.read.read_inputs`.
+    picture : bool
+        With `out`, also write ``graph.png`` (a picture of the graph for slides).
 
     Returns
     -------
@@ -140,8 +144,6 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     if out is not None and Path(out).exists() and not Path(out).is_dir():
         raise InputError(f"--out {out}: is a file; name a folder for the result files")
     ignore = split_names(ignore_columns)
-    from pipeline.analyses.bootstrap import check_bootstrap_options
-
     bootstrap, seed, jobs = check_bootstrap_options(bootstrap, seed, jobs)
     started = time.perf_counter()
 
@@ -188,7 +190,8 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
             result.provenance = provenance(paths, regimes_path)
             # 5. the files
             if out is not None:
-                result.run["files"] = {k: str(v) for k, v in result.save(out).items()}
+                result.run["files"] = {k: str(v) for k, v in
+                                       result.save(out, picture=picture).items()}
                 result.run["files"][STORE_NAME] = str(Path(out) / STORE_NAME)
     finally:
         if store is not None:

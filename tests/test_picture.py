@@ -46,8 +46,12 @@ def test_png_written_by_learn_and_refused_when_too_large(tmp_path):
     from pipeline.workflow import learn
 
     simulate(nodes=5, regimes=2, samples=100, seed=1).save(tmp_path)
-    learn(tmp_path / "data.csv", tmp_path / "regimes.csv", out=tmp_path / "out")
+    learn(tmp_path / "data.csv", tmp_path / "regimes.csv", out=tmp_path / "out", picture=True)
     assert (tmp_path / "out" / "graph.png").read_bytes()[:4] == b"\x89PNG"
+    assert 'href="graph.png"' in (tmp_path / "out" / "report.html").read_text()
+    learn(tmp_path / "data.csv", tmp_path / "regimes.csv", out=tmp_path / "plain")
+    assert not (tmp_path / "plain" / "graph.png").exists()  # only on request
+    assert 'href="graph.png"' not in (tmp_path / "plain" / "report.html").read_text()
     nodes = [f"V{i}" for i in range(MAX_DRAWN + 1)]
     with pytest.raises(ValueError, match="too many"):
         graph_png(nodes, [])

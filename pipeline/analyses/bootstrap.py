@@ -52,7 +52,7 @@ import numpy as np
 
 from pipeline.design import Design
 from pipeline.errors import InputError
-from pipeline.options import check_whole
+from pipeline.options import check_bootstrap_options
 from pipeline.results.bootstrap import BootstrapResult
 from pipeline.stats.moments import Moments
 
@@ -67,14 +67,6 @@ ProgressFn = Callable[[str, int, int], None] | None
 def fresh_seed() -> int:
     """A seed from the operating system's entropy (recorded so the run can be repeated)."""
     return int(np.random.SeedSequence().entropy % 2**63)
-
-
-def check_bootstrap_options(resamples: Any, seed: Any, jobs: Any) -> tuple[int, int | None, int]:
-    """``--bootstrap`` >= 0, ``--seed`` a whole number >= 0 or None, ``--jobs`` >= 1."""
-    resamples = check_whole("--bootstrap", resamples, 0)
-    if seed is not None:
-        seed = check_whole("--seed", seed, 0)
-    return resamples, seed, check_whole("--jobs", jobs, 1)
 
 
 def resampled_moments(paths: Sequence[str | Path], design: Design, moments: Moments, *,

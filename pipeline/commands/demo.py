@@ -46,7 +46,7 @@ def run(args: argparse.Namespace) -> int:
     check([data], regimes).print(console)
     console.rule("[bold]2. learn the graph[/bold]")
     with Progress() as bars:
-        result = learn([data], regimes, out=out, progress=bars)
+        result = learn([data], regimes, out=out, progress=bars, picture=True)
     result.print(console)
     truth = folder / "truth_dag.csv"
     if truth.is_file():

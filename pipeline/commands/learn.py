@@ -35,6 +35,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "result does not depend on it)")
     parser.add_argument("--engine", default="local", help=argparse.SUPPRESS)
     parser.add_argument("--scheduler", metavar="ADDRESS", help=argparse.SUPPRESS)
+    parser.add_argument("--picture", action="store_true",
+                        help="also write graph.png, a picture of the graph for slides")
     parser.add_argument("--test", default="gaussian", metavar="|".join(TESTS),
                         help="gaussian (default) or rank (within-regime rank correlations)")
     parser.add_argument("--collider-rule", default="majority", metavar="|".join(COLLIDER_RULES),
@@ -74,7 +76,8 @@ def run(args: argparse.Namespace) -> int:
         result = learn(inputs.data, inputs.regimes, out=args.out, alpha=args.alpha,
                        max_condition_size=args.max_condition_size, targets=args.targets,
                        test=args.test, collider_rule=args.collider_rule, seed=args.seed,
-                       bootstrap=args.bootstrap or 0, jobs=args.jobs or 1, progress=bars,
+                       bootstrap=args.bootstrap or 0, jobs=args.jobs or 1,
+                       picture=bool(args.picture), progress=bars,
                        **inputs.options)
     if result.run.get("notice"):
         from rich.markup import escape

@@ -27,25 +27,30 @@ from pipeline.results.tables import edges_csv, removed_csv
 if TYPE_CHECKING:  # pragma: no cover
     from pipeline.results.learn import LearnResult
 
-__all__ = ["RESULT_FILES", "RUN_FILES", "BOOTSTRAP_FILE", "archive_previous", "save_learn",
-           "report_sections", "refresh_report"]
+__all__ = ["RESULT_FILES", "RUN_FILES", "BOOTSTRAP_FILE", "PICTURE_FILE", "archive_previous",
+           "save_learn", "report_sections", "refresh_report"]
 
-#: The files `save_learn` writes (graph.png up to `MAX_DRAWN` variables; bootstrap.csv
-#: with ``--bootstrap``, see `BOOTSTRAP_FILE`).
+#: The files `save_learn` writes (bootstrap.csv with ``--bootstrap``, see `BOOTSTRAP_FILE`;
+#: graph.png on request, see `PICTURE_FILE`).
 RESULT_FILES = ("result.json", "edges.csv", "removed.csv", "graph.graphml", "check.json",
-                "response.csv", "report.html", "graph.png")
+                "response.csv", "report.html")
+#: The picture of the graph for slides (``learn --picture``; matplotlib, up to `MAX_DRAWN`
+#: variables). Drawing it costs about as much as a rerun from the store, so it is asked for.
+PICTURE_FILE = "graph.png"
 #: The pair table of the bootstrap, written by `save_learn` when resamples were run.
 BOOTSTRAP_FILE = "bootstrap.csv"
 _BOOTSTRAP_TITLE = "Bootstrap: edge stability under resampling"
 #: Files of an earlier run that go to history/ with them (other commands add them to DIR).
-RUN_FILES = RESULT_FILES + (BOOTSTRAP_FILE, "sweep.csv", "sweep.json", "validation.csv",
-                            "validation.json", "plan.json")
+RUN_FILES = RESULT_FILES + (PICTURE_FILE, BOOTSTRAP_FILE, "sweep.csv", "sweep.json",
+                            "validation.csv", "validation.json", "plan.json")
 
 
-def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
+def save_learn(result: LearnResult, folder: str | Path, picture: bool = False
+               ) -> dict[str, Path]:
     """Write the files of a learn result into `folder`; earlier ones go to ``history/``.
 
-    Returns the paths written, by file name.
+    With `picture`, also ``graph.png`` (up to `MAX_DRAWN` variables). Returns the paths
+    written, by file name.
     """
     folder = Path(folder)
     # 1. render everything first: a failure here leaves the folder untouched
@@ -62,18 +67,19 @@ def save_learn(result: LearnResult, folder: str | Path) -> dict[str, Path]:
     if result.bootstrap is not None:
         texts[BOOTSTRAP_FILE] = result.bootstrap.to_csv()
         sections.append((_BOOTSTRAP_TITLE, result.bootstrap.html_section()))
-    texts["report.html"] = render_report(record, result.check, sections)
-    picture = None
-    if len(record.nodes) <= MAX_DRAWN:
+    png = None
+    if picture and len(record.nodes) <= MAX_DRAWN:
         from pipeline.results.picture import graph_png
 
-        picture = graph_png(record.nodes, record.edges)
+        png = graph_png(record.nodes, record.edges)
+    texts["report.html"] = render_report(record, result.check, sections,
+                                         picture=png is not None)
     # 2. move the files of the earlier run aside, 3. write each file atomically
     archive_previous(folder)
     written = {name: write_text(folder / name, text) for name, text in texts.items()}
-    if picture is not None:
-        written["graph.png"] = atomic_write(folder / "graph.png",
-                                            lambda fh: fh.write(picture), binary=True)
+    if png is not None:
+        written[PICTURE_FILE] = atomic_write(folder / PICTURE_FILE,
+                                             lambda fh: fh.write(png), binary=True)
     return written
 
 
@@ -145,5 +151,6 @@ def refresh_report(folder: str | Path) -> Path:
         except (json.JSONDecodeError, UnicodeDecodeError) as exc:
             raise InputError(f"{folder / 'check.json'}: not valid JSON ({exc})") from None
         check = CheckResult.from_dict(data, where=str(folder / "check.json"))
-    html = render_report(record, check, report_sections(folder))
+    html = render_report(record, check, report_sections(folder),
+                         picture=(folder / PICTURE_FILE).is_file())
     return write_text(folder / "report.html", html)

@@ -259,11 +259,12 @@ class LearnResult:
         return f"LearnResult({self.graph!r}, class_size={self.class_size})"
 
     # -- files ----------------------------------------------------------------------------------
-    def save(self, folder: str | Path) -> dict[str, Path]:
+    def save(self, folder: str | Path, picture: bool = False) -> dict[str, Path]:
         """Write the result files into `folder`; earlier ones go to ``folder/history/``.
 
-        Returns the paths written, by file name (see `pipeline.results.files.save_learn`).
+        With `picture`, also ``graph.png`` (matplotlib). Returns the paths written, by
+        file name (see `pipeline.results.files.save_learn`).
         """
         from pipeline.results.files import save_learn
 
-        return save_learn(self, folder)
+        return save_learn(self, folder, picture=picture)

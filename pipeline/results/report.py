@@ -134,7 +134,7 @@ def _provenance(p: dict[str, Any]) -> str:
 
 
 def render_report(record: ResultRecord, check: CheckResult | None = None,
-                  sections: Sequence[tuple[str, str]] = ()) -> str:
+                  sections: Sequence[tuple[str, str]] = (), picture: bool = False) -> str:
     """The HTML page of a learn result (a string; the caller writes it).
 
     Parameters
@@ -146,6 +146,8 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
     sections : sequence of (title, html)
         Further sections (sweep, plan, validation), already rendered; shown after the
         regimes, in the order given.
+    picture : bool
+        A ``graph.png`` lies beside the page: link it.
     """
     s = record.settings
     n_dir = sum(1 for e in record.edges if e.orientation == "directed")
@@ -172,7 +174,7 @@ def render_report(record: ResultRecord, check: CheckResult | None = None,
     # drawing
     parts.append("<h2>Graph</h2>")
     parts.append(graph_section(record.nodes, record.edges))
-    if record.edges and len(record.nodes) <= MAX_DRAWN:
+    if picture and record.edges and len(record.nodes) <= MAX_DRAWN:
         parts.append("<p class=\"small\">The same drawing as a picture for slides: "
                      "<a href=\"graph.png\">graph.png</a>, beside this page.</p>")
 
