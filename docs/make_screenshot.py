@@ -19,7 +19,10 @@ from pipeline.workflow import learn  # noqa: E402
 
 
 def main() -> None:
-    demo = ROOT / "data" / "demo"
+    import os
+
+    os.chdir(ROOT)  # the report's provenance then names the inputs as a user types them
+    demo = Path("data") / "demo"
     with tempfile.TemporaryDirectory() as tmp:
         out = Path(tmp) / "orienteer-demo"
         learn([demo / "measurements.csv"], demo / "regimes.csv", out=out)
