@@ -41,7 +41,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import chdtrc, ndtr, ndtri
 
-__all__ = ["P_CAP", "cauchy_combination", "stratified_pvalues", "z_equivalent"]
+__all__ = ["P_CAP", "cauchy_combination", "stratified_pvalues", "stratified_sums",
+           "pvalues_from_sums", "z_equivalent"]
 
 #: p-values above this are capped before the Cauchy combination (see the module docstring).
 P_CAP = 0.99
@@ -66,6 +67,39 @@ def cauchy_combination(p1: np.ndarray, p2: np.ndarray) -> np.ndarray:
         return np.where(t > 0, np.arctan(1.0 / t) / np.pi, 0.5 + np.arctan(-t) / np.pi)
 
 
+def stratified_sums(z: np.ndarray, weight: np.ndarray
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The per-test sums the combination needs: ``sum m_k z_k``, ``sum m_k``,
+    ``sum m_k z_k^2`` and the number of regimes used (``m_k > 0``).
+
+    `z` is (m, K); `weight` is (K,) (shared: two matrix-vector products) or (m, K).
+    """
+    z = np.asarray(z, dtype=float)
+    w = np.asarray(weight, dtype=float)
+    if w.ndim == 1:
+        return z @ w, np.full(z.shape[0], w.sum()), (z * z) @ w, \
+            np.full(z.shape[0], float((w > 0).sum()))
+    wz = w * z
+    return wz.sum(axis=1), w.sum(axis=1), (wz * z).sum(axis=1), (w > 0).sum(axis=1)
+
+
+def pvalues_from_sums(signed: np.ndarray, total: np.ndarray, squares: np.ndarray,
+                      used: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(p_signed, p_combined)`` from the sums of `stratified_sums` (see the module)."""
+    z = signed / np.sqrt(np.where(total > 0, total, 1.0))
+    p_signed = 2.0 * ndtr(-np.abs(z))
+    several = used > 1
+    combined = p_signed.copy()
+    if several.any():  # one regime: Q = Z^2, the classical test, nothing to combine
+        p_sq = chdtrc(used[several], squares[several])
+        combined[several] = cauchy_combination(p_signed[several], p_sq)
+    none = used == 0
+    if none.any():
+        p_signed[none] = 1.0
+        combined[none] = 1.0
+    return p_signed, combined
+
+
 def stratified_pvalues(z: np.ndarray, weight: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The signed-sum p-value and the combined (sign-robust) p-value of stratified z.
 
@@ -83,23 +117,7 @@ def stratified_pvalues(z: np.ndarray, weight: np.ndarray) -> tuple[np.ndarray, n
         chi-square p of the sum of squares Q (K = the regimes used by each test).
         A test that uses no regime gets p = 1.
     """
-    z = np.asarray(z, dtype=float)
-    w = np.broadcast_to(np.asarray(weight, dtype=float), z.shape)
-    total = w.sum(axis=1)
-    used = (w > 0).sum(axis=1)
-    wz = w * z
-    signed = wz.sum(axis=1) / np.sqrt(np.where(total > 0, total, 1.0))
-    q = (wz * z).sum(axis=1)
-    p_signed = 2.0 * ndtr(-np.abs(signed))
-    p_sq = chdtrc(np.maximum(used, 1), q)
-    combined = cauchy_combination(p_signed, p_sq)
-    one = used == 1  # one regime: Q = Z^2, the classical test (no rounding difference)
-    combined = np.where(one, p_signed, combined)
-    none = used == 0
-    if none.any():
-        p_signed = np.where(none, 1.0, p_signed)
-        combined = np.where(none, 1.0, combined)
-    return p_signed, combined
+    return pvalues_from_sums(*stratified_sums(z, weight))
 
 
 def z_equivalent(p: np.ndarray) -> np.ndarray:

@@ -50,7 +50,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from pipeline.independence.base import TestResults
-from pipeline.independence.combine import stratified_pvalues, z_equivalent
+from pipeline.independence.combine import pvalues_from_sums, stratified_sums, z_equivalent
 from pipeline.stats.moments import Moments
 
 __all__ = ["partial_correlation", "fisher_z"]
@@ -266,7 +266,7 @@ class _Strata:
         weight = self.count - l_size - 3
         enough = (weight > 0) & (self.count >= min_count)
         weight = np.where(enough, weight, 0.0) / self.variance
-        pvalue = np.empty(m)
+        sums = [np.empty(m) for _ in range(4)]
         unusable = np.empty((m, ks), dtype=bool)
         for sl in _chunks(m, ks):
             xs, ys, cs = x[sl], y[sl], cond[sl]
@@ -284,8 +284,10 @@ class _Strata:
                 w = np.where(bad, 0.0, weight)
             else:
                 w = weight
-            pvalue[sl] = stratified_pvalues(z, w)[1]
+            for total, part in zip(sums, stratified_sums(z, w), strict=True):
+                total[sl] = part
             unusable[sl] = bad
+        pvalue = pvalues_from_sums(*sums)[1]
         stat = z_equivalent(pvalue)
         left_out = None
         if unusable.any():
