@@ -1,4 +1,4 @@
-"""Atomic output files: write beside the destination, then rename over it."""
+"""Files: atomic output (write beside the destination, then rename over it), and JSON input."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import IO, Any
 
-__all__ = ["atomic_write", "write_text", "write_json"]
+__all__ = ["atomic_write", "write_text", "write_json", "read_json"]
 
 _UMASK = os.umask(0o022)
 os.umask(_UMASK)
@@ -46,3 +46,22 @@ def write_text(path: str | Path, text: str) -> Path:
 def write_json(path: str | Path, obj: Any) -> Path:
     """Write `obj` as indented JSON to `path` atomically."""
     return write_text(path, json.dumps(obj, indent=2, allow_nan=False) + "\n")
+
+
+def read_json(path: str | Path) -> Any:
+    """The JSON content of `path`.
+
+    Raises
+    ------
+    InputError
+        If the file is missing or is not UTF-8 JSON (the message names the file).
+    """
+    from pipeline.errors import InputError
+
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(f"{path}: no such file")
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{path}: not valid JSON ({exc})") from None

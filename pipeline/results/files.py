@@ -17,7 +17,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from pipeline.errors import InputError
-from pipeline.fileio import atomic_write, write_text
+from pipeline.fileio import atomic_write, read_json, write_text
 from pipeline.results.check import CheckResult
 from pipeline.results.drawing import MAX_DRAWN
 from pipeline.results.report import render_report
@@ -146,11 +146,8 @@ def refresh_report(folder: str | Path) -> Path:
     record = ResultRecord.read(path)
     check = None
     if (folder / "check.json").is_file():
-        try:
-            data = json.loads((folder / "check.json").read_text(encoding="utf-8"))
-        except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-            raise InputError(f"{folder / 'check.json'}: not valid JSON ({exc})") from None
-        check = CheckResult.from_dict(data, where=str(folder / "check.json"))
+        check = CheckResult.from_dict(read_json(folder / "check.json"),
+                                      where=str(folder / "check.json"))
     html = render_report(record, check, report_sections(folder),
                          picture=(folder / PICTURE_FILE).is_file())
     return write_text(folder / "report.html", html)

@@ -159,12 +159,9 @@ class PlanResult:
     @classmethod
     def read(cls, path: str | Path) -> PlanResult:
         """Read a ``plan.json``."""
-        path = Path(path)
-        try:
-            data = json.loads(path.read_text(encoding="utf-8"))
-        except (OSError, json.JSONDecodeError, UnicodeDecodeError) as exc:
-            raise InputError(f"{path}: cannot be read as JSON ({exc})") from None
-        return cls.from_dict(data, where=str(path))
+        from pipeline.fileio import read_json
+
+        return cls.from_dict(read_json(path), where=str(path))
 
     def write(self, path: str | Path) -> Path:
         """Write ``plan.json`` to `path` atomically."""

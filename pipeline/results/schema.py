@@ -143,14 +143,9 @@ class ResultRecord:
 
     @classmethod
     def read(cls, path: str | Path) -> ResultRecord:
-        path = Path(path)
-        if not path.is_file():
-            raise InputError(f"{path}: no such file")
-        try:
-            d = json.loads(path.read_text(encoding="utf-8"))
-        except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-            raise InputError(f"{path}: not valid JSON ({exc})") from None
-        return cls.from_dict(d, where=str(path))
+        from pipeline.fileio import read_json
+
+        return cls.from_dict(read_json(path), where=str(path))
 
 
 def _log10_int(n: int) -> float:

@@ -244,12 +244,9 @@ class ValidationResult:
     @classmethod
     def read(cls, path: str | Path) -> ValidationResult:
         """Read a ``validation.json``."""
-        path = Path(path)
-        try:
-            data = json.loads(path.read_text(encoding="utf-8"))
-        except (OSError, json.JSONDecodeError, UnicodeDecodeError) as exc:
-            raise InputError(f"{path}: cannot be read as JSON ({exc})") from None
-        return cls.from_dict(data, where=str(path))
+        from pipeline.fileio import read_json
+
+        return cls.from_dict(read_json(path), where=str(path))
 
     def save(self, folder: str | Path) -> dict[str, Path]:
         """Write ``validation.csv`` and ``validation.json`` atomically; earlier ones go to
