@@ -40,3 +40,10 @@ def append_results(text: str) -> Path:
     with open(RESULTS, "a", encoding="utf-8") as fh:
         fh.write("\n" + text.rstrip("\n") + "\n")
     return RESULTS
+
+
+def publish(text: str, append: bool = True) -> None:
+    """Print a benchmark's section and, unless told not to, append it to RESULTS.md."""
+    print(text)
+    if append:
+        print(f"appended to {append_results(text).name}")

@@ -43,7 +43,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))  # for `tests.generator`
 
-from _common import append_results, load_average, machine  # noqa: E402
+from _common import load_average, machine, publish  # noqa: E402
 
 from tests.generator import generate, sign_flip_case  # noqa: E402
 
@@ -184,9 +184,7 @@ def main(argv: list[str] | None = None) -> int:
         *notes,
     ]
     text = "\n".join(block)
-    print(text)
-    if not args.no_append:
-        print(f"appended to {append_results(text).name}")
+    publish(text, append=not args.no_append)
     return 0
 
 

@@ -27,7 +27,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from _common import append_results, load_average, machine
+from _common import load_average, machine, publish
 
 from pipeline.simulation import simulate
 
@@ -77,9 +77,7 @@ def main(argv: list[str] | None = None) -> int:
              "", "| what | median wall s | |", "|---|---|---|"]
     lines += [f"| {what} | {t:.3f} | {note} |" for what, t, note in rows]
     text = "\n".join(lines) + "\n"
-    print(text)
-    if not args.no_append:
-        print(f"appended to {append_results(text).name}")
+    publish(text, append=not args.no_append)
     return 0
 
 

@@ -26,7 +26,7 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 import statsmodels.api as sm  # noqa: E402
-from _common import append_results, machine  # noqa: E402
+from _common import machine, publish  # noqa: E402
 
 from pipeline.design import Design, Regime  # noqa: E402
 from pipeline.independence.gaussian import GaussianTester  # noqa: E402
@@ -154,9 +154,7 @@ def main(argv: list[str] | None = None) -> int:
         "",
     ]
     text = "\n".join(block)
-    print(text)
-    if not args.no_append:
-        print(f"appended to {append_results(text).name}")
+    publish(text, append=not args.no_append)
     return 0
 
 
