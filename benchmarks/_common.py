@@ -5,6 +5,8 @@ from __future__ import annotations
 import importlib
 import os
 import platform
+import statistics
+import time
 from pathlib import Path
 
 RESULTS = Path(__file__).resolve().parent / "RESULTS.md"
@@ -47,3 +49,13 @@ def publish(text: str, append: bool = True) -> None:
     print(text)
     if append:
         print(f"appended to {append_results(text).name}")
+
+
+def median_time(fn, runs: int) -> tuple[float, object]:
+    """Median wall seconds of `runs` calls of ``fn()``, and the last call's result."""
+    times, out = [], None
+    for _ in range(runs):
+        t = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t)
+    return statistics.median(times), out

@@ -23,12 +23,10 @@ from __future__ import annotations
 import argparse
 import datetime
 import random
-import statistics
 import sys
-import time
 
 import networkx as nx
-from _common import append_results, machine
+from _common import append_results, machine, median_time
 
 from pipeline.graphs.counting import chain_components, class_size
 from pipeline.graphs.essential import essential_graph
@@ -59,15 +57,6 @@ def random_chordal(n: int, rng: random.Random, kmax: int = 3) -> nx.Graph:
         earlier[v] = nb
         g.add_edges_from((f"X{v}", f"X{w}") for w in nb)
     return g
-
-
-def median_time(fn, runs: int) -> tuple[float, object]:
-    times, out = [], None
-    for _ in range(runs):
-        t = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times), out
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -27,10 +27,9 @@ import datetime
 import random
 import statistics
 import sys
-import time
 
 import networkx as nx
-from _common import append_results, load_average, machine
+from _common import append_results, load_average, machine, median_time
 from bench_graphs import random_chordal, random_dag
 
 from pipeline.graphs.counting import chain_components
@@ -66,15 +65,6 @@ def experiments_needed(dag: nx.DiGraph, strategy: str, rng: random.Random) -> in
 def single_bound(dag: nx.DiGraph) -> int:
     g = essential_graph(dag).graph
     return Planner(g).bounds(1).single_target if any(True for _ in g.undirected_edges()) else 0
-
-
-def median_time(fn, runs: int) -> tuple[float, object]:
-    times, out = [], None
-    for _ in range(runs):
-        t = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times), out
 
 
 def main(argv: list[str] | None = None) -> int:

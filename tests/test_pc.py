@@ -13,25 +13,13 @@ import itertools
 
 import networkx as nx
 import pytest
+from simulated import in_memory
 
 from pipeline.design import Design, Regime
 from pipeline.graphs.validity import essential_graph_problems
 from pipeline.independence.gaussian import GaussianTester
 from pipeline.learner import DSeparationTester, learn_graph
 from pipeline.simulation import simulate
-from pipeline.stats.moments import Moments
-
-
-def _in_memory(sim):
-    variables = tuple(sim.model.variables)
-    samples = {r: g[list(variables)].to_numpy()
-               for r, g in sim.data.groupby("regime", sort=False)}
-    m = Moments.from_samples(samples, variables)
-    regimes = []
-    for name, targets in zip(sim.regimes.regime, sim.regimes.targets, strict=True):
-        t = tuple(v for v in str(targets).split(";") if v)
-        regimes.append(Regime(name, t, True, not t, int(m.count[m.index(name)])))
-    return Design(variables, tuple(regimes)), m
 
 
 def _brute_force_size(g) -> int:
@@ -59,7 +47,7 @@ def test_noisy_runs_always_give_a_valid_class(rule):
     for seed in range(8):
         for nodes in (10, 15):
             sim = simulate(nodes=nodes, degree=3.0, regimes=4, samples=50, seed=seed)
-            design, m = _in_memory(sim)
+            design, m = in_memory(sim)
             learned = learn_graph(design, GaussianTester(m, design), alpha=0.01,
                                   collider_rule=rule)
             assert learned.problems == []
@@ -76,7 +64,7 @@ def test_noisy_runs_always_give_a_valid_class(rule):
 
 def test_every_conflict_names_the_decision_set_aside():
     sim = simulate(nodes=12, degree=3.0, regimes=4, samples=50, seed=4)
-    design, m = _in_memory(sim)
+    design, m = in_memory(sim)
     learned = learn_graph(design, GaussianTester(m, design))
     assert learned.conflicts
     g = learned.graph

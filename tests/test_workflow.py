@@ -7,30 +7,16 @@ import json
 import numpy as np
 import pandas as pd
 import pytest
+from simulated import in_memory
 
 import pipeline.independence.gaussian as gaussian
 import pipeline.intake.read as intake_read
 from pipeline.analyses.scoring import score
-from pipeline.design import Design, Regime
 from pipeline.errors import InputError
 from pipeline.graphs.essential import essential_graph
 from pipeline.independence.store import TestStore
 from pipeline.simulation import simulate
-from pipeline.stats.moments import Moments
 from pipeline.workflow import learn, learn_from_moments
-
-
-def _in_memory(sim):
-    """Design and moments of a simulation, without writing any file."""
-    variables = tuple(sim.model.variables)
-    samples = {r: g[list(variables)].to_numpy()
-               for r, g in sim.data.groupby("regime", sort=False)}
-    m = Moments.from_samples(samples, variables)
-    regimes = []
-    for name, targets in zip(sim.regimes.regime, sim.regimes.targets, strict=True):
-        t = tuple(v for v in str(targets).split(";") if v)
-        regimes.append(Regime(name, t, True, not t, int(m.count[m.index(name)])))
-    return Design(variables, tuple(regimes)), m
 
 
 # Acceptance: 15 variables, expected degree 2, a control plus 7 single-target regimes of
@@ -41,7 +27,7 @@ def test_recovery_on_simulated_experiments(kind):
     shds, recalls = [], []
     for seed in range(4):
         sim = simulate(nodes=15, degree=2.0, regimes=7, samples=3000, kind=kind, seed=seed)
-        design, m = _in_memory(sim)
+        design, m = in_memory(sim)
         result = learn_from_moments(design, m, alpha=0.01)
         truth = essential_graph(sim.truth_dag, design.intervention_targets()).graph
         s = score(result.graph, truth)
@@ -141,7 +127,7 @@ def test_changed_byte_gets_a_new_fingerprint(tmp_path, files, monkeypatch):
 
 def test_learn_from_moments_with_a_store(tmp_path):
     sim = simulate(nodes=6, degree=2.0, regimes=3, samples=300, kind="shift", seed=2)
-    design, m = _in_memory(sim)
+    design, m = in_memory(sim)
     with TestStore(tmp_path / "tests.sqlite") as store:
         a = learn_from_moments(design, m, store=store, fingerprint="mem")
         b = learn_from_moments(design, m, store=store, fingerprint="mem")
