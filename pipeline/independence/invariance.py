@@ -85,7 +85,8 @@ from pipeline.stats.moments import Moments, merge_moments
 if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
     import pandas as pd
 
-__all__ = ["KURTOSIS_MARGIN", "invariance_test", "regime_pair", "response_matrix",
+__all__ = ["KURTOSIS_MARGIN", "invariance_test", "regime_pair", "residual_kurtosis",
+           "response_matrix",
            "ResponseMatrix", "standardized_difference"]
 
 #: A variable whose variance is below this fraction of its scale counts as constant
@@ -110,6 +111,19 @@ def _excess_kurtosis(n: np.ndarray, m2: np.ndarray, m4: np.ndarray) -> np.ndarra
         g2 = n * m4 / (m2 * m2) - 3.0
         adj = ((n + 1.0) * g2 + 6.0) * (n - 1.0) / ((n - 2.0) * (n - 3.0))
     return np.where((n > 3) & (m2 > 0) & np.isfinite(adj), adj, 0.0)
+
+
+def residual_kurtosis(kurtosis: np.ndarray, r2: np.ndarray, n: float) -> np.ndarray:
+    """Excess kurtosis used for the residual of a regression, with room for its error.
+
+    `kurtosis` is the pooled sample excess kurtosis of the response (floored at 0), `r2`
+    the R^2 of its regression and `n` the samples of both regimes: the response's
+    kurtosis is carried to the residual by ``1 / (1 - R^2)`` and raised by
+    `KURTOSIS_MARGIN`.
+    """
+    r2 = np.clip(r2, 0.0, _R2_CAP)
+    return (kurtosis / (1.0 - r2) * (1.0 + KURTOSIS_MARGIN[0] / n**0.75)
+            + KURTOSIS_MARGIN[1] / np.sqrt(n))
 
 
 class _Pair:
@@ -170,10 +184,7 @@ class _Pair:
                 kappa = np.zeros(xs.shape[0])
                 if self.has_tails:
                     r2 = 1.0 - (n_ref * unit[:, 0] + n_k * unit[:, 1]) / n_all
-                    r2 = np.clip(r2, 0.0, _R2_CAP)
-                    kappa = (self.kurtosis[xs] / (1.0 - r2)
-                             * (1.0 + KURTOSIS_MARGIN[0] / n_all**0.75)
-                             + KURTOSIS_MARGIN[1] / np.sqrt(n_all))
+                    kappa = residual_kurtosis(self.kurtosis[xs], r2, n_all)
                 shrink = 2.0 / (2.0 + kappa)
                 d_ref, d_k = (n_ref - q) * shrink, (n_k - q) * shrink
                 ratio = (rss[:, 1] / (n_k - q)) / (rss[:, 0] / (n_ref - q))
