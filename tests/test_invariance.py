@@ -1,8 +1,10 @@
 """Invariance tests (pipeline.independence.invariance) against statsmodels and scipy.
 
 Outside references: the residual sums of squares of statsmodels OLS fits on the raw rows
-(separate fits and the fit on the union) give Chow's F (Chow 1960) and the variance
-ratio, with p-values from scipy.stats.f; the excess kurtosis is scipy.stats.kurtosis with
+(separate fits and the fit on the union) give Chow's F (Chow 1960), with p-values from
+scipy.stats.f, and Bartlett's statistic on the residual variances (Bartlett 1937), with
+p-values from scipy.stats.chi2 (and equal to scipy.stats.bartlett when S is empty); the
+excess kurtosis is scipy.stats.kurtosis with
 bias=False (the adjusted estimator G2 of Joanes & Gill 1998); the two p-values are joined
 by the Cauchy combination of Liu & Xie (2020) written out by hand; null p-values are
 checked for uniformity with scipy.stats.kstest.
@@ -50,9 +52,12 @@ def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> 
         relative, absolute = KURTOSIS_MARGIN
         kappa = (max(g2, 0.0) / (1 - min(r2, 0.99)) * (1 + relative / n**0.75)
                  + absolute / np.sqrt(n))
-    d_ref, d_k = (n_ref - q) * 2 / (2 + kappa), (n_k - q) * 2 / (2 + kappa)
-    ratio = fits[1].mse_resid / fits[0].mse_resid
-    p_var = min(1.0, 2 * min(stats.f.cdf(ratio, d_k, d_ref), stats.f.sf(ratio, d_k, d_ref)))
+    d_ref, d_k = n_ref - q, n_k - q  # Bartlett's M on the residual variances, Box's scale
+    pooled = (fits[0].ssr + fits[1].ssr) / (d_ref + d_k)
+    m = (d_ref + d_k) * np.log(pooled) - d_ref * np.log(fits[0].mse_resid) - d_k * np.log(
+        fits[1].mse_resid)
+    c = 1 + (1 / d_ref + 1 / d_k - 1 / (d_ref + d_k)) / 3
+    p_var = stats.chi2.sf(m / c / (1 + kappa / 2), 1)
     p1, p2 = min(p_coef, 0.99), min(p_var, 0.99)
     t = 0.5 * (1 / np.tan(np.pi * p1) + 1 / np.tan(np.pi * p2))
     return float(np.arctan(1 / t) / np.pi if t > 0 else 0.5 + np.arctan(-t) / np.pi)
@@ -85,6 +90,22 @@ def test_equals_statsmodels_fits(l_size, tails):
         expected = _by_hand(ref, regime, x[i], list(cond[i]), tails)
         assert res.pvalue[i] == pytest.approx(expected, rel=1e-7, abs=1e-300)
         assert res.statistic[i] == pytest.approx(stats.norm.isf(expected / 2), rel=1e-7)
+
+
+def test_variance_part_is_bartletts_test():
+    # S empty, Gaussian tails assumed: the variance part is scipy.stats.bartlett on the
+    # raw rows, so with equal means the joined p-value is the Cauchy combination of
+    # Chow's (Student's t) and Bartlett's
+    rng = np.random.default_rng(5)
+    ref, regime = rng.normal(size=(80, 2)), rng.normal(size=(50, 2)) * [1.0, 1.6]
+    res = invariance_test(*_stats(ref), *_stats(regime), [0, 1], np.zeros((2, 0), int))
+    for j in range(2):
+        p_var = stats.bartlett(ref[:, j], regime[:, j]).pvalue  # scipy
+        p_coef = stats.ttest_ind(ref[:, j], regime[:, j]).pvalue  # scipy: F(1, d) = t^2
+        p1, p2 = min(p_coef, 0.99), min(p_var, 0.99)
+        t = 0.5 * (1 / np.tan(np.pi * p1) + 1 / np.tan(np.pi * p2))
+        expected = np.arctan(1 / t) / np.pi if t > 0 else 0.5 + np.arctan(-t) / np.pi
+        assert res.pvalue[j] == pytest.approx(expected, rel=1e-9)
 
 
 def test_reference_pooled_from_several_controls():
