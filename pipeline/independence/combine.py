@@ -90,7 +90,10 @@ def pvalues_from_sums(signed: np.ndarray, total: np.ndarray, squares: np.ndarray
     p_signed = 2.0 * ndtr(-np.abs(z))
     several = used > 1
     combined = p_signed.copy()
-    if several.any():  # one regime: Q = Z^2, the classical test, nothing to combine
+    if several.all():  # the common case: every test uses the same regimes
+        df = used[0] if np.all(used == used[0]) else used
+        combined = cauchy_combination(p_signed, chdtrc(df, squares))
+    elif several.any():  # one regime: Q = Z^2, the classical test, nothing to combine
         p_sq = chdtrc(used[several], squares[several])
         combined[several] = cauchy_combination(p_signed[several], p_sq)
     none = used == 0
