@@ -1,7 +1,7 @@
 """Benchmark (b): throughput of the batched tests over sufficient statistics.
 
-Times `GaussianTester.ci` (stratified Fisher z) and `GaussianTester.invariance` (LR)
-on one core for conditioning sets of size 0..3, and compares them with a naive
+Times `GaussianTester.ci` (stratified Fisher z) and `GaussianTester.invariance` (Chow +
+Bartlett) on one core for conditioning sets of size 0..3, and compares them with a naive
 per-test computation on the raw rows (statsmodels OLS residuals per regime, or three
 OLS log-likelihoods per invariance test), measured on a few hundred tests and
 extrapolated per test. Prints a table and appends it to benchmarks/RESULTS.md.
@@ -126,7 +126,7 @@ def main(argv: list[str] | None = None) -> int:
             lambda a=x[:k], c=cond[:k]: _naive_invariance(samples["ctrl"], samples["kd_1"],
                                                           a, c), 1) / k
         rows.append(("ci (Fisher z)", l_size, args.tests, t_ci, t_naive_ci))
-        rows.append(("invariance (Chow + variance)", l_size, args.tests, t_inv, t_naive_inv))
+        rows.append(("invariance (Chow + Bartlett)", l_size, args.tests, t_inv, t_naive_inv))
 
     header = ("| test | \\|S\\| | tests per call | median wall s | tests/s (wall) "
               "| tests/s (CPU) | naive s/test | naive tests/s | speed-up (wall) |")

@@ -5,8 +5,9 @@ from the per-regime sufficient statistics:
 
 1. how many samples each regime has;
 2. whether each declared target moved: the marginal invariance test of the target in its
-   regime against the pooled reference (likelihood-ratio test of equal mean and variance,
-   `pipeline.independence.invariance`) with the standardized mean shift. A declared target
+   regime against the pooled reference (Chow's test of equal means joined with Bartlett's
+   of equal variances, `pipeline.independence.invariance`) with the standardized mean
+   shift. A declared target
    that did not move is a failed intervention: its regime carries no orienting information
    for that target (METHODS.md section 4);
 3. the response matrix, regime x variable: under faithfulness a variable shifts under a

@@ -1,4 +1,4 @@
-"""The Gaussian tester: stratified Fisher z and likelihood-ratio invariance tests.
+"""The Gaussian tester: stratified Fisher z and invariance tests.
 
 `GaussianTester` answers the learner's batches (the `Tester` protocol) from the
 per-regime sufficient statistics only. Conditional-independence tests are stratified
@@ -90,7 +90,8 @@ class GaussianTester:
         return res
 
     def invariance(self, regime: str, x: np.ndarray, cond: np.ndarray) -> TestResults:
-        """LR tests that the law of ``X_i | S_i`` is the same in `regime` and the reference.
+        """Invariance tests that the law of ``X_i | S_i`` is the same in `regime` and the
+        reference (Chow + Bartlett, `pipeline.independence.invariance`).
 
         Raises
         ------
