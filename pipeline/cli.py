@@ -14,11 +14,11 @@ import os
 import sys
 import tempfile
 import time
-import tomllib
 import traceback
 from collections.abc import Sequence
 from pathlib import Path
 
+from pipeline import __version__
 from pipeline.errors import InputError, nearest_names
 
 __all__ = ["main", "build_parser", "COMMANDS"]
@@ -38,7 +38,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="orienteer",
         description="Orient the edges of a causal graph from control and perturbation experiments.",
     )
-    parser.add_argument("--version", action="version", version=f"orienteer {_version()}")
+    parser.add_argument("--version", action="version", version=f"orienteer {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for name in COMMANDS:
@@ -58,20 +58,13 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _version() -> str:
-    from importlib.metadata import PackageNotFoundError, version
-
-    try:
-        return version("orienteer")
-    except PackageNotFoundError:  # a source checkout that was never installed
-        return "0+unknown"
-
-
 def _apply_config(args: argparse.Namespace, rest: Sequence[str]) -> argparse.Namespace:
     """Re-parse `rest` (the words after the command) with ``--config`` values as defaults."""
     path = Path(args.config)
     if not path.is_file():
         raise InputError(f"--config {path}: no such file")
+    import tomllib
+
     try:
         table = tomllib.loads(path.read_text(encoding="utf-8"))
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:

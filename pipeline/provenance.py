@@ -15,8 +15,8 @@ parses nothing.
 from __future__ import annotations
 
 import hashlib
-import platform
 import shlex
+import sys
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -52,13 +52,10 @@ def command_line() -> str:
 
 
 def tool_version() -> str:
-    """The installed version of Orienteer (``0+unknown`` for an uninstalled checkout)."""
-    from importlib.metadata import PackageNotFoundError, version
+    """The version of Orienteer."""
+    from pipeline import __version__
 
-    try:
-        return version("orienteer")
-    except PackageNotFoundError:
-        return "0+unknown"
+    return __version__
 
 
 def file_record(path: str | Path, role: str) -> dict[str, Any]:
@@ -99,6 +96,6 @@ def provenance(data: Iterable[str | Path], regimes: str | Path | None = None) ->
         "date": datetime.now(UTC).replace(microsecond=0).isoformat().replace(
             "+00:00", "Z"),
         "command": command_line(),
-        "python": platform.python_version(),
+        "python": "{}.{}.{}".format(*sys.version_info[:3]),
         "numpy": numpy.__version__,
     }

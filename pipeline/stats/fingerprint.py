@@ -1,15 +1,16 @@
 """A content fingerprint of the inputs, to tell whether stored statistics still apply.
 
-The fingerprint is the SHA-256 of the raw bytes of every data file (in the order given),
-of the regimes file, and of the options that change the statistics (regime column,
-ignored columns, dropping of missing rows, reference, test; and, when they differ from
-their defaults, the decimal mark, the regime source, the worksheet and the chosen
-genes). File names and dates do not enter, with two exceptions that change how the
-bytes are read: the format ending of a file that is not CSV or Parquet (``.tsv``,
-``.gz``, ``.xlsx``, ``.h5ad``, ...), and, with ``regime_from="filename"``, the file
-names that become the regime names. Otherwise renaming or touching a file keeps its
-fingerprint; editing one byte changes it.
-Hashing reads the bytes in blocks and parses nothing, so it is cheap next to reading.
+The fingerprint is the SHA-256 of the SHA-256 digests (with the sizes) of every data file
+(in the order given) and of the regimes file, and of the options that change the
+statistics (regime column, ignored columns, dropping of missing rows, reference, test;
+and, when they differ from their defaults, the decimal mark, the regime source, the
+worksheet and the chosen genes). File names and dates do not enter, with two exceptions
+that change how the bytes are read: the format ending of a file that is not CSV or
+Parquet (``.tsv``, ``.gz``, ``.xlsx``, ``.h5ad``, ...), and, with
+``regime_from="filename"``, the file names that become the regime names. Otherwise
+renaming or touching a file keeps its fingerprint; editing one byte changes it.
+Hashing reads the bytes in blocks and parses nothing, so it is cheap next to reading; each
+file is hashed once, its digest kept for the provenance of the result.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from pipeline.errors import InputError
 
 __all__ = ["fingerprint_inputs", "statistics_options"]
 
-_FORMAT = b"orienteer.fingerprint/1"
+_FORMAT = b"orienteer.fingerprint/2"
 #: The version of the statistics and tests kept under a fingerprint: raised whenever a
 #: test's definition changes, so that a store never answers with results of an older one.
 METHODS_VERSION = 2
@@ -75,6 +76,8 @@ def file_key(path: Path) -> tuple[str, int, int]:
 
 
 def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
+    """Hash the bytes of `path` once (kept in `FILE_HASHES`) and feed `h` its role, size
+    and digest."""
     try:
         key = file_key(path)
         fh = open(path, "rb")  # noqa: SIM115 - read-only, closed below
@@ -82,13 +85,12 @@ def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
         raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
     alone = hashlib.sha256()
     with fh:
-        h.update(role + b"\0" + str(key[1]).encode() + b"\0")
         while block := fh.read(_BLOCK):
             if stop is not None and stop.is_set():
                 raise _Stopped
-            h.update(block)
             alone.update(block)
-    FILE_HASHES[key] = alone.hexdigest()
+    FILE_HASHES[key] = digest = alone.hexdigest()
+    h.update(role + b"\0" + str(key[1]).encode() + b"\0" + digest.encode() + b"\0")
 
 
 def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
