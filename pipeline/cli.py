@@ -12,9 +12,7 @@ import argparse
 import importlib
 import os
 import sys
-import tempfile
 import time
-import traceback
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -100,6 +98,9 @@ def _all_option_names() -> set[str]:
 
 
 def _crash_log(exc: BaseException) -> Path:
+    import tempfile
+    import traceback
+
     folder = Path(os.environ.get("ORIENTEER_LOG_DIR", tempfile.gettempdir()))
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / f"orienteer-fault-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.log"
@@ -128,6 +129,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except Exception as exc:  # noqa: BLE001 - every fault becomes exit 1 with a log
         if debug:
+            import traceback
+
             traceback.print_exc()
         log = _crash_log(exc)
         print(f"internal fault: {type(exc).__name__}: {exc}\n"

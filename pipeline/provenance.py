@@ -14,7 +14,6 @@ parses nothing.
 
 from __future__ import annotations
 
-import hashlib
 import shlex
 import sys
 from collections.abc import Iterable, Iterator, Sequence
@@ -29,7 +28,6 @@ from pipeline.errors import InputError
 __all__ = ["provenance", "command_line", "running_command", "tool_version", "file_record"]
 
 _COMMAND: ContextVar[str | None] = ContextVar("orienteer_command_line", default=None)
-_BLOCK = 1 << 20
 
 
 @contextmanager
@@ -66,17 +64,11 @@ def file_record(path: str | Path, role: str) -> dict[str, Any]:
     InputError
         If the file cannot be read.
     """
-    from pipeline.stats.fingerprint import FILE_HASHES, file_key
+    from pipeline.stats.fingerprint import FILE_HASHES, file_digest, file_key
 
     try:
         key = file_key(Path(path))
-        digest = FILE_HASHES.get(key)  # hashed already by the input fingerprint
-        if digest is None:
-            h = hashlib.sha256()
-            with open(path, "rb") as fh:
-                while block := fh.read(_BLOCK):
-                    h.update(block)
-            digest = h.hexdigest()
+        digest = FILE_HASHES.get(key) or file_digest(Path(path))  # hashed by the fingerprint
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
     return {"role": role, "path": str(path), "bytes": key[1], "sha256": digest}
