@@ -10,16 +10,26 @@ start-up and imports included, median of several runs:
    the same folder at a new alpha (statistics and earlier tests from ``tests.sqlite``;
    goal: at least 5 times faster than the cold run).
 
+The package's bytecode is compiled first (``compileall``), as installing a package does,
+so that no timed process compiles the package's sources; ``--no-bytecode`` times a checkout
+where Python writes no bytecode instead (the package's ``__pycache__`` folders removed and
+``PYTHONDONTWRITEBYTECODE=1``: every process compiles the package's sources). The section
+says which was timed.
+
 Run from the repository root::
 
     python benchmarks/bench_startup.py
     python benchmarks/bench_startup.py --runs 3 --no-append
+    python benchmarks/bench_startup.py --no-bytecode
 """
 
 from __future__ import annotations
 
 import argparse
+import compileall
 import datetime
+import os
+import shutil
 import statistics
 import subprocess
 import sys
@@ -29,24 +39,43 @@ from pathlib import Path
 
 from _common import load_average, machine, publish
 
+import pipeline
 from pipeline.simulation import simulate
 
 ORIENTEER = [sys.executable, "-m", "pipeline"]
+PACKAGE = Path(pipeline.__file__).parent
+#: The environment of the timed processes.
+ENV = dict(os.environ)
 
 
 def wall(args: list[str]) -> float:
     """Seconds of one ``orienteer`` process; raises if it fails."""
     started = time.perf_counter()
     subprocess.run(ORIENTEER + args, check=True, stdout=subprocess.DEVNULL,
-                   stderr=subprocess.DEVNULL)
+                   stderr=subprocess.DEVNULL, env=ENV)
     return time.perf_counter() - started
+
+
+def prepare_bytecode(compiled: bool) -> str:
+    """Compile the package's bytecode, or remove it and have no process write it; say which."""
+    if compiled:
+        compileall.compile_dir(PACKAGE, quiet=1)
+        return "compiled before timing (as installing the package does)"
+    for folder in PACKAGE.rglob("__pycache__"):
+        shutil.rmtree(folder)
+    ENV["PYTHONDONTWRITEBYTECODE"] = "1"
+    return "none (PYTHONDONTWRITEBYTECODE=1): every process compiles the package's sources"
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--runs", type=int, default=5, help="runs per figure (median)")
     parser.add_argument("--no-append", action="store_true", help="print only")
+    parser.add_argument("--no-bytecode", action="store_true",
+                        help="time a checkout without the package's bytecode (compiled at "
+                             "every start)")
     args = parser.parse_args(argv)
+    bytecode = prepare_bytecode(not args.no_bytecode)
     load = load_average()
     rows = []
     for words in (["--version"], ["--help"], ["learn", "--help"]):
@@ -74,6 +103,7 @@ def main(argv: list[str] | None = None) -> int:
              f"- machine: {machine('numpy')}; load average at start: {load}",
              f"- command: `{command}`",
              f"- wall time of a fresh process, start-up included; median of {args.runs} runs",
+             f"- the package's bytecode: {bytecode}",
              "", "| what | median wall s | |", "|---|---|---|"]
     lines += [f"| {what} | {t:.3f} | {note} |" for what, t, note in rows]
     text = "\n".join(lines) + "\n"

@@ -16,6 +16,9 @@ from __future__ import annotations
 
 from pipeline.lazy import lazy_exports
 
+#: The version of Orienteer (the package metadata takes it from here).
+__version__ = "0.1.0"
+
 __all__ = [
     "learn",
     "sweep",

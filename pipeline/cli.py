@@ -12,13 +12,11 @@ import argparse
 import importlib
 import os
 import sys
-import tempfile
 import time
-import tomllib
-import traceback
 from collections.abc import Sequence
 from pathlib import Path
 
+from pipeline import __version__
 from pipeline.errors import InputError, nearest_names
 
 __all__ = ["main", "build_parser", "COMMANDS"]
@@ -38,7 +36,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="orienteer",
         description="Orient the edges of a causal graph from control and perturbation experiments.",
     )
-    parser.add_argument("--version", action="version", version=f"orienteer {_version()}")
+    parser.add_argument("--version", action="version", version=f"orienteer {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for name in COMMANDS:
@@ -58,20 +56,13 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _version() -> str:
-    from importlib.metadata import PackageNotFoundError, version
-
-    try:
-        return version("orienteer")
-    except PackageNotFoundError:  # a source checkout that was never installed
-        return "0+unknown"
-
-
 def _apply_config(args: argparse.Namespace, rest: Sequence[str]) -> argparse.Namespace:
     """Re-parse `rest` (the words after the command) with ``--config`` values as defaults."""
     path = Path(args.config)
     if not path.is_file():
         raise InputError(f"--config {path}: no such file")
+    import tomllib
+
     try:
         table = tomllib.loads(path.read_text(encoding="utf-8"))
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
@@ -107,6 +98,9 @@ def _all_option_names() -> set[str]:
 
 
 def _crash_log(exc: BaseException) -> Path:
+    import tempfile
+    import traceback
+
     folder = Path(os.environ.get("ORIENTEER_LOG_DIR", tempfile.gettempdir()))
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / f"orienteer-fault-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.log"
@@ -135,6 +129,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except Exception as exc:  # noqa: BLE001 - every fault becomes exit 1 with a log
         if debug:
+            import traceback
+
             traceback.print_exc()
         log = _crash_log(exc)
         print(f"internal fault: {type(exc).__name__}: {exc}\n"

@@ -6,7 +6,6 @@ every other exception is a fault of ours (exit 1, the traceback goes to a log).
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Iterable
 
 __all__ = ["InputError", "nearest_names"]
@@ -18,5 +17,7 @@ class InputError(ValueError):
 
 def nearest_names(name: str, candidates: Iterable[str], n: int = 3) -> str:
     """Return ``" (nearest: A, B)"`` naming the candidates closest to `name`, or ``""``."""
+    import difflib
+
     close = difflib.get_close_matches(name, list(candidates), n=n, cutoff=0.5)
     return f" (nearest: {', '.join(close)})" if close else ""

@@ -14,9 +14,8 @@ parses nothing.
 
 from __future__ import annotations
 
-import hashlib
-import platform
 import shlex
+import sys
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -29,7 +28,6 @@ from pipeline.errors import InputError
 __all__ = ["provenance", "command_line", "running_command", "tool_version", "file_record"]
 
 _COMMAND: ContextVar[str | None] = ContextVar("orienteer_command_line", default=None)
-_BLOCK = 1 << 20
 
 
 @contextmanager
@@ -52,13 +50,10 @@ def command_line() -> str:
 
 
 def tool_version() -> str:
-    """The installed version of Orienteer (``0+unknown`` for an uninstalled checkout)."""
-    from importlib.metadata import PackageNotFoundError, version
+    """The version of Orienteer."""
+    from pipeline import __version__
 
-    try:
-        return version("orienteer")
-    except PackageNotFoundError:
-        return "0+unknown"
+    return __version__
 
 
 def file_record(path: str | Path, role: str) -> dict[str, Any]:
@@ -69,17 +64,11 @@ def file_record(path: str | Path, role: str) -> dict[str, Any]:
     InputError
         If the file cannot be read.
     """
-    from pipeline.stats.fingerprint import FILE_HASHES, file_key
+    from pipeline.stats.fingerprint import FILE_HASHES, file_digest, file_key
 
     try:
         key = file_key(Path(path))
-        digest = FILE_HASHES.get(key)  # hashed already by the input fingerprint
-        if digest is None:
-            h = hashlib.sha256()
-            with open(path, "rb") as fh:
-                while block := fh.read(_BLOCK):
-                    h.update(block)
-            digest = h.hexdigest()
+        digest = FILE_HASHES.get(key) or file_digest(Path(path))  # hashed by the fingerprint
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
     return {"role": role, "path": str(path), "bytes": key[1], "sha256": digest}
@@ -99,6 +88,6 @@ def provenance(data: Iterable[str | Path], regimes: str | Path | None = None) ->
         "date": datetime.now(UTC).replace(microsecond=0).isoformat().replace(
             "+00:00", "Z"),
         "command": command_line(),
-        "python": platform.python_version(),
+        "python": "{}.{}.{}".format(*sys.version_info[:3]),
         "numpy": numpy.__version__,
     }

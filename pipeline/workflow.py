@@ -347,32 +347,43 @@ def learn_from_moments(design: Design, moments: Moments, *, alpha: float = 0.01,
 def _learn(design: Design, moments: Moments, *, intake, store, fingerprint: str, alpha: float,
            max_condition_size: int | None, targets: str, collider_rule: str,
            settings: dict[str, Any], progress: ProgressArg, check: bool) -> LearnResult:
-    """Steps 3-4 of the workflow; arguments already validated."""
-    from pipeline.independence.gaussian import GaussianTester
+    """Steps 3-4 of the workflow; arguments already validated.
+
+    With a store, the check's numbers and the learner's tests are read from it, and the
+    Gaussian tester (and the libraries it computes with) is built only if one is missing.
+    """
     from pipeline.learner.pc import learn_graph
 
-    # 3. the input check, from the statistics alone
+    # 3. the input check, from the statistics alone (its numbers kept in the store)
     checked = None
     if check:
         from pipeline.analyses.check import check_intake
+        from pipeline.independence.numbers import StoredNumbers
         from pipeline.intake.record import Intake
 
         if intake is None:
             intake = Intake(design, moments, fingerprint, 0, list(design.warnings))
-        checked = check_intake(intake, alpha=alpha)
+        checked = check_intake(intake, alpha=alpha,
+                               numbers=None if store is None else StoredNumbers(store, fingerprint),
+                               learner_checks_targets=targets == "declared")
 
     # 3b. control batches that differ are not pooled: the check settled the reference
     learner_design = checked.design if checked is not None else design
+
+    def gaussian_tester() -> Any:
+        from pipeline.independence.gaussian import GaussianTester
+
+        return GaussianTester(moments, learner_design)
 
     # 4. the learner, asking its tests through the store
     if store is not None:
         from pipeline.independence.cached import CachedTester
 
-        tester: Any = CachedTester(GaussianTester(moments, learner_design), store,
+        tester: Any = CachedTester(gaussian_tester, store,
                                    _store_key(fingerprint, checked.demoted if checked else []),
                                    n_regimes=len(design.regimes))
     else:
-        tester = GaussianTester(moments, learner_design)
+        tester = gaussian_tester()
     if callable(progress):
         bars = nullcontext(progress)
     else:

@@ -231,3 +231,53 @@ def test_demo_data_shows_its_lessons():
         targets = truth.loc[truth["regime"] == name, "targets"].item()
         down = _descendants(dag, targets)
         assert {v for v, m in zip(res.response.variables, moved[i], strict=True) if m} == down
+
+
+def test_numbers_read_from_the_store_give_the_same_check(tmp_path):
+    # control batches that differ and a regime whose targets are hints (known=no): every
+    # kind of number the check keeps (control agreement, the settled reference, response
+    # matrix, neighbour p-values, conditional target tests); a second check reads them all
+    from pipeline.independence.numbers import StoredNumbers
+    from pipeline.independence.store import TestStore
+
+    sim = simulate(nodes=6, regimes=3, samples=1000, controls=2, seed=13)
+    data = sim.data.copy()
+    data.loc[data["regime"] == "ctrl_2", "X3"] += 0.5 * data["X3"].std()
+    regimes = sim.regimes.copy()
+    regimes.loc[regimes.index[-1], "known"] = "no"
+    intake = _intake(data, regimes)
+    fresh = check_intake(intake, alpha=0.05)
+    assert fresh.demoted == ["ctrl_2"] and any(t.conditional_pvalue is not None and not t.known
+                                               for t in fresh.targets)
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        first = check_intake(intake, alpha=0.05, numbers=StoredNumbers(store, "fp"))
+        numbers = StoredNumbers(store, "fp")
+        again = check_intake(intake, alpha=0.05, numbers=numbers)
+    assert numbers.computed == 0 and numbers.reused >= 5
+    assert json.dumps(first.to_dict()) == json.dumps(fresh.to_dict())
+    assert json.dumps(again.to_dict()) == json.dumps(fresh.to_dict())
+
+
+def test_learn_leaves_known_targets_to_the_learner():
+    # do() matched to the observational mean and sd: the targets keep their marginal law
+    # and only the conditional test sees them (tests/generator.py). Leaving that test to
+    # the learner changes nothing: learn's check is the full check with its verdicts.
+    import sys
+
+    sys.path.insert(0, str(Path(__file__).parent))
+    from generator import generate
+
+    from pipeline.analyses.check import with_learner_verdicts
+    from pipeline.intake.record import Intake
+    from pipeline.workflow import learn_from_moments
+
+    g = generate(7, 2.0, n=800, n_regimes=4, kinds=("do-matched",), seed=3)
+    variables = tuple(c for c in g.data.columns if c != "regime")
+    regimes = g.regimes.assign(targets=g.regimes["targets"].fillna(""),
+                               known=g.regimes.get("known", "yes"))
+    intake = _intake(g.data[["regime", *variables]], regimes)
+    result = learn_from_moments(intake.design, intake.moments, alpha=0.01, check=True)
+    assert any(t.verdict != MOVED for t in result.check.targets)
+    full = check_intake(Intake(intake.design, intake.moments, "", 0, []), alpha=0.01)
+    full = with_learner_verdicts(full, result.learned.target_verdicts)
+    assert json.dumps(result.check.to_dict()) == json.dumps(full.to_dict())

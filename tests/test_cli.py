@@ -108,3 +108,13 @@ def test_the_parser_is_built_without_heavy_imports():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip()
     assert out == "[]"
+
+
+def test_version_is_that_of_the_installed_package(capsys):
+    # the package metadata (importlib.metadata) is the outside reference
+    from importlib.metadata import version
+
+    with pytest.raises(SystemExit) as exc:
+        cli.main(["--version"])
+    assert exc.value.code == 0
+    assert capsys.readouterr().out.strip() == f"orienteer {version('orienteer')}"

@@ -131,6 +131,24 @@ def test_layers_of_a_dag_follow_its_topological_generations(seed):
     assert len({y for _, y in centre.values()}) == len(list(nx.topological_generations(dag)))
 
 
+@pytest.mark.parametrize("seed", range(4))
+def test_parts_are_the_connected_components(seed):
+    # networkx's connected_components is the reference
+    from pipeline.results.layout import components
+
+    g = nx.gnp_random_graph(25, 0.06, seed=seed)
+    nodes = [f"V{i}" for i in g]
+    edges = [EdgeRecord(f"V{a}", f"V{b}", "undirected", "none") for a, b in g.edges]
+    parts = components(nodes, edges)
+    want = {frozenset(f"V{i}" for i in c) for c in nx.connected_components(g)}
+    assert {frozenset(p) for p, _ in parts} == want
+    assert [len(p) for p, _ in parts] == sorted((len(c) for c in want), reverse=True)
+    assert sorted((e.source, e.target) for _, es in parts for e in es) \
+        == sorted((e.source, e.target) for e in edges)
+    for part, es in parts:
+        assert all(e.source in part and e.target in part for e in es)
+
+
 def test_crossing_removed_by_the_barycentre_order():
     # A -> D and B -> C with the node order A, B, C, D: the order of the nodes would cross
     # the two edges; a barycentre sweep puts D left of C (common practice, Sugiyama 1981)

@@ -98,6 +98,27 @@ def test_fingerprint_tracks_bytes_and_options_not_names(tmp_path):
     assert fingerprint_inputs([moved], reg) != fp
 
 
+def test_background_hashing_gives_the_same_fingerprint(tmp_path):
+    from pipeline.stats import fingerprint as fp_module
+
+    paths, reg = _files(tmp_path, {"d.csv": _table()})
+    plain = fingerprint_inputs(paths, reg)
+    fp_module.FILE_HASHES.clear()
+    fp_module.hash_in_background([*paths, reg])
+    assert fingerprint_inputs(paths, reg) == plain
+    # each digest is the SHA-256 of the file's bytes (hashlib is the reference)
+    key = fp_module.file_key(paths[0])
+    assert fp_module.FILE_HASHES[key] == hashlib.sha256(paths[0].read_bytes()).hexdigest()
+    assert not fp_module._PENDING
+    # a file changed after its hashing began is hashed again
+    fp_module.FILE_HASHES.clear()
+    fp_module.hash_in_background(paths)
+    paths[0].write_bytes(paths[0].read_bytes().replace(b"ctrl", b"ctrL", 1) + b"\n")
+    changed = fingerprint_inputs(paths, reg)
+    fp_module.FILE_HASHES.clear()
+    assert changed != plain and changed == fingerprint_inputs(paths, reg)
+
+
 def test_drop_missing_drops_and_counts(tmp_path):
     frame = _table()
     frame.loc[3, "X2"] = np.nan

@@ -143,6 +143,42 @@ def test_invariance_and_left_out_round_trip(tmp_path):
     store.close()
 
 
+def test_inner_tester_is_built_only_when_a_test_is_missing(tmp_path):
+    built = []
+
+    def build():
+        built.append(CountingTester())
+        return built[-1]
+
+    x, cond = np.array([0, 1]), np.zeros((2, 0), int)
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        with CachedTester(build, store, "fp", 3) as t:
+            first = t.invariance("kd", x, cond)
+            t.invariance("kd", np.array([2]), np.zeros((1, 0), int))
+        assert len(built) == 1 and built[0].asked == 3  # built once, for the first miss
+        # every test stored: the builder is never called
+        again = CachedTester(build, store, "fp", 3).invariance("kd", x, cond)
+        assert len(built) == 1
+    np.testing.assert_array_equal(first.pvalue, again.pvalue)
+
+
+def test_named_numbers_round_trip_bit_for_bit(tmp_path):
+    rng = np.random.default_rng(1)
+    arrays = {"p": rng.random((3, 4)), "mask": rng.random((3, 4)) > 0.5,
+              "signed": np.array([-0.0, np.nan, np.inf, 5e-324])}
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        fid = store.fingerprint_id("fp")
+        store.put_numbers(fid, "one", arrays)
+        store.put_numbers(fid, "one", {"p": np.zeros((3, 4))})  # first write wins
+        other = store.fingerprint_id("other")
+        assert store.load_numbers(other) == {}
+        got = store.load_numbers(fid)["one"]
+    assert set(got) == set(arrays)
+    for k, a in arrays.items():
+        assert got[k].dtype == a.dtype and got[k].shape == a.shape
+        assert got[k].tobytes() == a.tobytes()  # -0.0, NaN and subnormals kept
+
+
 def _writer(path: str, offset: int, n_batches: int, barrier=None) -> None:
     store = TestStore(path, timeout=120)
     t = CachedTester(CountingTester(), store, "fp", 3)

@@ -70,3 +70,40 @@ def test_named_chordless_cycles_are_chordless():
         cyc = _chordless_cycle(g)
         assert len(cyc) >= 4
         assert nx.is_isomorphic(g.subgraph(cyc), nx.cycle_graph(len(cyc)))
+
+
+def test_cycles_found_where_networkx_finds_them():
+    # networkx's is_directed_acyclic_graph is the reference; a returned cycle is closed and
+    # made of edges of the graph
+    from pipeline.graphs.validity import _find_cycle
+
+    rng = random.Random(4)
+    with_cycle = 0
+    for _ in range(300):
+        n = rng.randint(1, 12)
+        d = nx.gnp_random_graph(n, rng.uniform(0.05, 0.3), seed=rng.randrange(10**6),
+                                directed=True)
+        cycle = _find_cycle({v: list(d.successors(v)) for v in d})
+        assert (cycle is None) == nx.is_directed_acyclic_graph(d)
+        if cycle is not None:
+            with_cycle += 1
+            assert all(d.has_edge(u, v) for u, v in cycle)
+            assert all(cycle[i][1] == cycle[(i + 1) % len(cycle)][0] for i in range(len(cycle)))
+    assert 50 < with_cycle < 300
+
+
+def test_chordality_agrees_with_networkx():
+    # networkx's is_chordal is the reference (maximum cardinality search, Tarjan &
+    # Yannakakis 1984)
+    from pipeline.graphs.validity import _not_perfect
+
+    rng = random.Random(5)
+    chordal = 0
+    for _ in range(300):
+        g = nx.gnp_random_graph(rng.randint(1, 14), rng.uniform(0.1, 0.7),
+                                seed=rng.randrange(10**6))
+        verdict = _not_perfect({v: list(g[v]) for v in g}) is None
+        assert verdict == nx.is_chordal(g)
+        chordal += verdict
+    assert 50 < chordal < 250
+

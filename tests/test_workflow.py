@@ -157,3 +157,50 @@ def test_missing_files_are_input_errors(tmp_path, files):
     with pytest.raises(InputError, match="--regimes"):
         learn([data], None)
     assert not (tmp_path / "o").exists()  # no partial output
+
+
+# A rerun from the store, in a process where the statistics, table and graph libraries
+# cannot be imported (so neither can a data file be parsed): importing one fails the run.
+_WITHOUT_LIBRARIES = """
+import json, sys
+for name in ("scipy", "pandas", "pyarrow", "networkx"):
+    sys.modules[name] = None
+from pipeline.cli import main
+code = main(sys.argv[1:])
+loaded = sorted(m for m, v in sys.modules.items() if v is not None
+                and m.split(".")[0] in ("scipy", "pandas", "pyarrow", "networkx"))
+print(json.dumps({"code": code, "loaded": loaded}))
+"""
+
+
+@pytest.fixture(scope="module")
+def strong(tmp_path_factory):
+    """Large effects: a new alpha needs no test the store lacks."""
+    folder = tmp_path_factory.mktemp("strong")
+    simulate(nodes=8, degree=2.0, regimes=4, samples=3000, kind="knockdown", seed=5,
+             controls=2).save(folder)
+    return folder / "data.csv", folder / "regimes.csv"
+
+
+def test_a_rerun_from_the_store_imports_no_statistics_library(tmp_path, strong):
+    import subprocess
+    import sys
+
+    data, regimes = strong
+    out, cold = tmp_path / "out", tmp_path / "cold"
+    learn([data], regimes, out=out, alpha=0.01)
+    learn([data], regimes, out=cold, alpha=0.004)  # the reference: a cold run at that alpha
+    args = ["learn", str(data), "--regimes", str(regimes), "--out", str(out), "--alpha", "0.004"]
+    proc = subprocess.run([sys.executable, "-c", _WITHOUT_LIBRARIES, *args],
+                          capture_output=True, text=True)
+    assert proc.returncode == 0, proc.stderr
+    report = json.loads(proc.stdout.strip().splitlines()[-1])
+    assert report == {"code": 0, "loaded": []}, proc.stderr
+    assert "tests computed: 0," in proc.stdout and "no data file parsed" in proc.stdout
+    # the files are those of the cold run at that alpha, the input check included
+    for name in ("check.json", "response.csv", "edges.csv", "removed.csv", "graph.graphml"):
+        assert (out / name).read_text() == (cold / name).read_text(), name
+    rerun, fresh = (json.loads((d / "result.json").read_text()) for d in (out, cold))
+    assert rerun.pop("provenance")["command"].startswith("orienteer learn")
+    fresh.pop("provenance")
+    assert rerun == fresh

@@ -20,6 +20,11 @@ from the per-regime sufficient statistics:
 Warnings add too few samples in a regime and variables constant within a regime (a
 complete knockout or a reporter at its floor: not an error, METHODS.md section 3).
 
+The tests' numbers do not depend on alpha: they are asked through `StoredNumbers`, which
+keeps them in the test store of a run folder, so that a rerun at another alpha reads them
+and only applies its alpha (the statistics libraries that compute them are imported only
+when a number is missing).
+
 References
 ----------
 1. F. Eberhardt, R. Scheines (2007). Interventions and causal inference. Philosophy of
@@ -32,6 +37,7 @@ References
 
 from __future__ import annotations
 
+import json
 import re
 from collections.abc import Sequence
 from dataclasses import replace
@@ -42,14 +48,9 @@ import numpy as np
 
 from pipeline.design import Design
 from pipeline.errors import InputError
-from pipeline.independence.combine import stratified_pvalues
-from pipeline.independence.invariance import (
-    ResponseMatrix,
-    regime_pair,
-    response_matrix,
-    standardized_difference,
-)
 from pipeline.independence.multiplicity import benjamini_hochberg
+from pipeline.independence.numbers import StoredNumbers
+from pipeline.independence.response import ResponseMatrix
 from pipeline.options import check_alpha
 from pipeline.results.check import (
     MOVED,
@@ -111,13 +112,20 @@ def check(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
     return check_intake(intake, alpha=alpha)
 
 
-def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
+def check_intake(intake: Intake, alpha: float = 0.01, numbers: StoredNumbers | None = None,
+                 learner_checks_targets: bool = False) -> CheckResult:
     """Check inputs already read (an `Intake`), without reading any file again.
 
     Parameters
     ----------
     intake : Intake, from `pipeline.intake.read.read_inputs`
     alpha : float in (0, 1)
+    numbers : StoredNumbers, optional
+        Where the tests' numbers are kept (a run folder's store); None computes them.
+    learner_checks_targets : bool
+        True when the learner tests the declared targets of known regimes given their
+        neighbours in the learned graph (`with_learner_verdicts` then replaces their
+        conditional test): the check leaves that test out for them.
 
     Returns
     -------
@@ -129,6 +137,7 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
         If `alpha` is not in (0, 1) or the design has no reference regime.
     """
     check_alpha(alpha)
+    numbers = numbers if numbers is not None else StoredNumbers()
     design, moments = intake.design, intake.moments
     samples = {name: int(n) for name, n in zip(moments.regimes, moments.count, strict=True)}
     warnings: list[str] = []
@@ -160,10 +169,11 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
                         + ("it" if len(vs) == 1 else "them"))
 
     # 3. control batches: do they agree? keep one reference, analyse the others apart
-    controls = control_agreement(intake, alpha) if len(design.reference) > 1 else None
+    controls = (control_agreement(intake, alpha, numbers=numbers)
+                if len(design.reference) > 1 else None)
     demoted: list[str] = []
     if controls is not None and not controls.agree:
-        design, demoted = settle_reference(moments, design, alpha)
+        design, demoted = settle_reference(moments, design, alpha, numbers=numbers)
         diff = "; ".join(f"{k} in {', '.join(v)}" for k, v in controls.differing.items() if v)
         kept = ", ".join(r.name for r in design.reference)
         warnings.append(
@@ -174,10 +184,11 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
                "its batch effect moves is listed as off-target findings)" if demoted else ""))
 
     # 4. the response matrix against that reference
-    response = response_matrix(moments, design)
+    response = _response(moments, design, numbers)
 
     # 5. the declared targets: marginal law, and law given the target's neighbours
-    targets = _target_checks(moments, design, response, alpha)
+    targets = _target_checks(moments, design, response, alpha, numbers,
+                             learner_checks_targets)
     for t in targets:
         warnings.extend(_target_warning(t, alpha))
     for i, name in enumerate(response.regimes):
@@ -205,9 +216,41 @@ def check_intake(intake: Intake, alpha: float = 0.01) -> CheckResult:
                        demoted=demoted)
 
 
+def _response(moments: Moments, design: Design, numbers: StoredNumbers) -> ResponseMatrix:
+    """The response matrix against the design's reference, its numbers kept in `numbers`."""
+    ref_names = [r.name for r in design.reference]
+
+    def compute() -> dict[str, np.ndarray]:
+        from pipeline.independence.invariance import response_matrix
+
+        r = response_matrix(moments, design)
+        return {"shift": r.shift, "pvalue": r.pvalue, "statistic": r.statistic,
+                "sd_ratio": r.sd_ratio}
+
+    got = numbers.get(f"response {json.dumps(ref_names)}", compute)
+    return ResponseMatrix(tuple(r.name for r in design.interventional), tuple(moments.variables),
+                          got["shift"], got["pvalue"], got["statistic"], sd_ratio=got["sd_ratio"])
+
+
+def _conditional_pvalue(moments: Moments, reference: list[str], regime: str, j: int,
+                        cond: np.ndarray, numbers: StoredNumbers) -> float:
+    """p-value of the invariance test of variable `j` given `cond` in `regime` against the
+    pooled `reference`, kept in `numbers`."""
+    def compute() -> dict[str, np.ndarray]:
+        from pipeline.independence.invariance import regime_pair
+
+        return {"pvalue": regime_pair(moments, reference, regime).test(
+            np.array([j]), cond[None, :]).pvalue}
+
+    key = json.dumps([reference, regime, int(j), cond.tolist()])
+    return float(numbers.get(f"target given {key}", compute)["pvalue"][0])
+
+
 def _target_checks(moments: Moments, design: Design, response: ResponseMatrix,
-                   alpha: float) -> list[TargetCheck]:
-    """Marginal and conditional invariance of every declared target in its regime."""
+                   alpha: float, numbers: StoredNumbers, learner_checks_known: bool
+                   ) -> list[TargetCheck]:
+    """Marginal and conditional invariance of every declared target in its regime (the
+    conditional test left out for known targets when the learner does it)."""
     row_of = {name: i for i, name in enumerate(response.regimes)}
     col_of = {v: j for j, v in enumerate(response.variables)}
     ref_targets = design.reference_targets()
@@ -217,18 +260,19 @@ def _target_checks(moments: Moments, design: Design, response: ResponseMatrix,
         return []
     marginal = np.array([response.pvalue[row_of[r.name], col_of[t]] for r, t in pending])
     adjusted = benjamini_hochberg(marginal)
-    nbrs = neighbour_estimate(moments, alpha)
+    conditional = [not (learner_checks_known and r.known) for r, _ in pending]
+    nbrs = neighbour_estimate(moments, alpha, numbers=numbers) if any(conditional) else None
     out = []
-    for (r, t), pv, adj in zip(pending, marginal.tolist(), adjusted.tolist(), strict=True):
+    for (r, t), pv, adj, cond_test in zip(pending, marginal.tolist(), adjusted.tolist(),
+                                          conditional, strict=True):
         i, j = row_of[r.name], col_of[t]
         given: tuple[str, ...] = ()
         p_cond = None
-        if nbrs is not None:
+        if nbrs is not None and cond_test:
             cond = np.flatnonzero(nbrs[j])
             n_k = int(moments.count[moments.index(r.name)])
             if 0 < cond.size <= max(n_k - 3, 0):
-                res = regime_pair(moments, ref_names, r.name).test(np.array([j]), cond[None, :])
-                p_cond = float(res.pvalue[0])
+                p_cond = _conditional_pvalue(moments, ref_names, r.name, j, cond, numbers)
                 given = tuple(moments.variables[c] for c in cond)
         verdict = (MOVED if pv <= alpha else
                    MOVED_GIVEN if p_cond is not None and p_cond <= alpha else NOT_MOVED)
@@ -288,19 +332,35 @@ def with_learner_verdicts(result: CheckResult, verdicts: list) -> CheckResult:
     return replace(result, targets=targets, warnings=warnings)
 
 
-def neighbour_estimate(moments: Moments, alpha: float, max_variables: int = 500
-                       ) -> np.ndarray | None:
+def neighbour_estimate(moments: Moments, alpha: float, max_variables: int = 500,
+                       numbers: StoredNumbers | None = None) -> np.ndarray | None:
     """Pairs with a partial correlation given all other variables (a Markov blanket estimate).
 
     Per regime with more samples than variables + 3, the partial correlations given the
     rest are read off the inverse of the correlation matrix; the regimes are combined as
     in the stratified Fisher z test (`pipeline.independence.combine`). Returns a symmetric
     (p, p) boolean matrix of the pairs with combined p <= alpha, or None when no regime
-    has enough samples or there are more than `max_variables` variables.
+    has enough samples or there are more than `max_variables` variables. The p-values
+    are kept in `numbers` when given.
     """
     p = len(moments.variables)
     if p < 2 or p > max_variables:
         return None
+    numbers = numbers if numbers is not None else StoredNumbers()
+    got = numbers.get("neighbours", lambda: _neighbour_pvalues(moments))
+    if got["pvalue"].size == 0:
+        return None
+    adj = (got["pvalue"] <= alpha) & got["tested"]
+    np.fill_diagonal(adj, False)
+    return adj & adj.T
+
+
+def _neighbour_pvalues(moments: Moments) -> dict[str, np.ndarray]:
+    """The combined p-value of each pair's partial correlation given the rest, and whether
+    a regime tested it; (0, 0) arrays when no regime has enough samples."""
+    from pipeline.independence.combine import stratified_pvalues
+
+    p = len(moments.variables)
     const = moments.constant()
     zs, ws = [], []
     for k in range(len(moments.regimes)):
@@ -323,13 +383,11 @@ def neighbour_estimate(moments: Moments, alpha: float, max_variables: int = 500
         zs.append(np.arctanh(np.clip(r, -1 + 1e-12, 1 - 1e-12)))
         ws.append(w)
     if not zs:
-        return None
+        return {"pvalue": np.zeros((0, 0)), "tested": np.zeros((0, 0), dtype=bool)}
     z = np.stack(zs, axis=-1).reshape(p * p, -1)
     w = np.stack(ws, axis=-1).reshape(p * p, -1)
-    pval = stratified_pvalues(z, w)[1].reshape(p, p)
-    adj = (pval <= alpha) & (w.sum(axis=1).reshape(p, p) > 0)
-    np.fill_diagonal(adj, False)
-    return adj & adj.T
+    return {"pvalue": stratified_pvalues(z, w)[1].reshape(p, p),
+            "tested": w.sum(axis=1).reshape(p, p) > 0}
 
 
 def distribution_shape(moments: Moments, skew_limit: float = 1.0,
@@ -351,8 +409,8 @@ def distribution_shape(moments: Moments, skew_limit: float = 1.0,
     return DistributionShape(tuple(moments.variables), mean_skew, mean_kurt, far)
 
 
-def settle_reference(moments: Moments, design: Design, alpha: float
-                     ) -> tuple[Design, list[str]]:
+def settle_reference(moments: Moments, design: Design, alpha: float,
+                     numbers: StoredNumbers | None = None) -> tuple[Design, list[str]]:
     """Keep one reference when control batches differ; the others are analysed apart.
 
     The largest control (the first of equal size) is the reference; every other control is
@@ -365,22 +423,28 @@ def settle_reference(moments: Moments, design: Design, alpha: float
     on one variable orient that variable's edges: measured worse on simulated batches.)
     Controls that agree stay pooled into the reference.
 
-    Returns the new design and the names of the controls analysed apart.
+    Returns the new design and the names of the controls analysed apart. The tests'
+    p-values are kept in `numbers` when given.
     """
     controls = list(design.reference)
     if len(controls) < 2:
         return design, []
     sizes = [int(moments.count[moments.index(r.name)]) for r in controls]
     chosen = controls[int(np.argmax(sizes))].name
+    others = [r.name for r in controls if r.name != chosen]
     p = len(moments.variables)
-    every, empty = np.arange(p), np.zeros((p, 0), dtype=np.intp)
-    demoted = []
-    for r in controls:
-        if r.name == chosen:
-            continue
-        res = regime_pair(moments, [chosen], r.name).test(every, empty)
-        if np.any(np.minimum(1.0, res.pvalue * p) <= alpha):
-            demoted.append(r.name)
+
+    def compute() -> dict[str, np.ndarray]:
+        from pipeline.independence.invariance import regime_pair
+
+        every, empty = np.arange(p), np.zeros((p, 0), dtype=np.intp)
+        return {"pvalue": np.array([regime_pair(moments, [chosen], name).test(every, empty)
+                                    .pvalue for name in others]).reshape(len(others), p)}
+
+    numbers = numbers if numbers is not None else StoredNumbers()
+    pvalue = numbers.get(f"controls against {json.dumps([chosen, *others])}", compute)["pvalue"]
+    demoted = [name for name, row in zip(others, pvalue, strict=True)
+               if np.any(np.minimum(1.0, row * p) <= alpha)]
     if not demoted:
         return design, []
     regimes = tuple(replace(r, reference=False) if r.name in demoted else r
@@ -388,8 +452,11 @@ def settle_reference(moments: Moments, design: Design, alpha: float
     return replace(design, regimes=regimes), demoted
 
 
-def control_agreement(intake: Intake, alpha: float = 0.01) -> ControlAgreement:
+def control_agreement(intake: Intake, alpha: float = 0.01,
+                      numbers: StoredNumbers | None = None) -> ControlAgreement:
     """Test each control regime against the pooled other controls (marginal invariance).
+
+    The tests' numbers are kept in `numbers` when given.
 
     Raises
     ------
@@ -402,18 +469,28 @@ def control_agreement(intake: Intake, alpha: float = 0.01) -> ControlAgreement:
         raise InputError(f"regimes: control agreement needs two or more control regimes, "
                          f"got {len(names)}")
     p = len(moments.variables)
-    every = np.arange(p)
-    shift, stat, pval = (np.zeros((len(names), p)) for _ in range(3))
-    for i, name in enumerate(names):
-        others = [m for m in names if m != name]
-        n_o, mean_o, scatter_o = moments.pooled(others)
-        k = moments.index(name)
-        res = regime_pair(moments, others, name).test(every, np.zeros((p, 0), dtype=np.intp))
-        stat[i], pval[i] = res.statistic, res.pvalue
-        sd = np.sqrt(np.diagonal(scatter_o) / max(n_o - 1, 1))
-        shift[i] = standardized_difference(moments.mean[k] - mean_o, sd)
-    adjusted = np.minimum(1.0, pval * p)
-    return ControlAgreement(names, tuple(moments.variables), shift, stat, pval, adjusted, alpha)
+
+    def compute() -> dict[str, np.ndarray]:
+        from pipeline.independence.invariance import regime_pair, standardized_difference
+
+        every = np.arange(p)
+        shift, stat, pval = (np.zeros((len(names), p)) for _ in range(3))
+        for i, name in enumerate(names):
+            others = [m for m in names if m != name]
+            n_o, mean_o, scatter_o = moments.pooled(others)
+            k = moments.index(name)
+            res = regime_pair(moments, others, name).test(every,
+                                                          np.zeros((p, 0), dtype=np.intp))
+            stat[i], pval[i] = res.statistic, res.pvalue
+            sd = np.sqrt(np.diagonal(scatter_o) / max(n_o - 1, 1))
+            shift[i] = standardized_difference(moments.mean[k] - mean_o, sd)
+        return {"shift": shift, "statistic": stat, "pvalue": pval}
+
+    numbers = numbers if numbers is not None else StoredNumbers()
+    got = numbers.get(f"controls {json.dumps(list(names))}", compute)
+    adjusted = np.minimum(1.0, got["pvalue"] * p)
+    return ControlAgreement(names, tuple(moments.variables), got["shift"], got["statistic"],
+                            got["pvalue"], adjusted, alpha)
 
 
 def _mentioned(warnings: list[str], *words: str) -> bool:

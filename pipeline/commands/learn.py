@@ -66,6 +66,9 @@ def run(args: argparse.Namespace) -> int:
     if not args.out:
         raise InputError("--out: missing; name the folder for the result files")
     _check_unsupported(args)
+    from pipeline.stats.fingerprint import hash_in_background
+
+    hash_in_background([*inputs.data, inputs.regimes])  # meanwhile: the imports below
     from rich.console import Console
 
     from pipeline.progress import Progress

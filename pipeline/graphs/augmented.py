@@ -22,10 +22,12 @@ References
 from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Mapping
-
-import networkx as nx
+from typing import TYPE_CHECKING
 
 from pipeline.graphs.pdag import InterventionNode
+
+if TYPE_CHECKING:  # imported where a graph is built: importing this module stays light
+    import networkx as nx
 
 __all__ = ["augmented_graph"]
 
@@ -57,6 +59,8 @@ def augmented_graph(dag: nx.DiGraph, targets: Mapping[str, Iterable[Node]],
     ValueError
         If `dag` is not directed acyclic or a target is not a node of `dag`.
     """
+    import networkx as nx
+
     if not dag.is_directed() or not nx.is_directed_acyclic_graph(dag):
         raise ValueError("dag should be directed acyclic")
     ref = set(reference_targets)

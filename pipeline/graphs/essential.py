@@ -32,12 +32,14 @@ from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Mapping
 from dataclasses import dataclass, field
-
-import networkx as nx
+from typing import TYPE_CHECKING
 
 from pipeline.graphs.augmented import augmented_graph
 from pipeline.graphs.meek import meek_closure
 from pipeline.graphs.pdag import PDAG, InterventionNode
+
+if TYPE_CHECKING:  # the learner's graphs are PDAGs: networkx only where a DAG is given
+    import networkx as nx
 
 __all__ = ["EdgeReason", "EssentialGraph", "orient_pattern", "essential_graph", "v_structures"]
 

@@ -51,12 +51,14 @@ from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Sequence
 from dataclasses import dataclass, field
-
-import networkx as nx
+from typing import TYPE_CHECKING
 
 from pipeline.graphs.essential import EssentialGraph, orient_pattern, v_structures
 from pipeline.graphs.pdag import PDAG, InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
+
+if TYPE_CHECKING:  # networkx is imported where a DAG is built (a faster start)
+    import networkx as nx
 
 __all__ = ["Rejection", "Resolution", "accept_colliders", "consistent_extension",
            "resolve_orientations"]
@@ -248,6 +250,8 @@ def consistent_extension(g: PDAG) -> tuple[nx.DiGraph, list[Triple]]:
     """
     if not isinstance(g, PDAG):
         raise TypeError(f"g should be a PDAG, got {type(g).__name__}")
+    import networkx as nx
+
     if not nx.is_directed_acyclic_graph(g.directed_graph()):
         raise ValueError("g should have no directed cycle among its directed edges")
     pa = {n: set(g.parents(n)) for n in g.nodes}

@@ -9,6 +9,10 @@ fail these when tests err; this module names what fails, with the offending edge
 * a chain component with a chordless cycle of four or more nodes;
 * an induced ``a -> b - c`` (a would make a v-structure with either direction of b - c).
 
+Cycles are found by depth-first search; chordality by a maximum cardinality search, whose
+visiting order is a perfect elimination order (read backwards) iff the graph is chordal
+[3]_.
+
 >>> from pipeline.graphs.pdag import PDAG
 >>> g = PDAG("ABC"); g.add_directed("A", "B"); g.add_undirected("B", "C")
 >>> essential_graph_problems(g)
@@ -20,15 +24,16 @@ References
    equivalence classes for acyclic digraphs. Annals of Statistics 25, 505-541.
 2. A. Hauser, P. Buhlmann (2012). Characterization and greedy learning of interventional
    Markov equivalence classes of directed acyclic graphs. JMLR 13, 2409-2464.
+3. R. E. Tarjan, M. Yannakakis (1984). Simple linear-time algorithms to test chordality of
+   graphs, test acyclicity of hypergraphs, and selectively reduce acyclic hypergraphs.
+   SIAM Journal on Computing 13(3), 566-579.
 """
 
 from __future__ import annotations
 
 import itertools
 from collections import deque
-from collections.abc import Hashable
-
-import networkx as nx
+from collections.abc import Hashable, Iterable, Mapping
 
 from pipeline.graphs.counting import chain_components
 from pipeline.graphs.pdag import PDAG
@@ -36,6 +41,8 @@ from pipeline.graphs.pdag import PDAG
 __all__ = ["essential_graph_problems"]
 
 Node = Hashable
+#: A graph as each node's neighbours (or successors), in a fixed order.
+Adjacency = Mapping[Node, Iterable[Node]]
 _MAX_REPORTED = 20
 
 
@@ -65,35 +72,32 @@ def essential_graph_problems(g: PDAG) -> list[str]:
     # Step 1: no (partially) directed cycle: the directed edges between chain components
     # must form an acyclic graph
     comp_of = {n: i for i, comp in enumerate(comps) for n in comp}
-    d = g.directed_graph()
-    try:
-        cycle = nx.find_cycle(d)
+    cycle = _find_cycle({n: sorted(g.children(n), key=g.index) for n in g.nodes})
+    if cycle is not None:
         problems.append(f"directed cycle {_path(cycle)}: the graph must have no directed cycle.")
-    except nx.NetworkXNoCycle:
-        quotient = nx.DiGraph()
+    else:
+        quotient: dict[int, dict[int, tuple[Node, Node]]] = {}
         for u, v in g.directed_edges():
             a, b = comp_of[u], comp_of[v]
             if a == b:
                 problems.append(f"{u} -> {v} joins two nodes of one chain component: "
                                 "a partially directed cycle.")
             else:
-                quotient.add_edge(a, b, edge=(u, v))
-        try:
-            cycle = nx.find_cycle(quotient)
-            arcs = [quotient.edges[a, b]["edge"] for a, b in cycle]
+                quotient.setdefault(a, {})[b] = (u, v)
+                quotient.setdefault(b, {})
+        cycle = _find_cycle(quotient)
+        if cycle is not None:
+            arcs = [quotient[a][b] for a, b in cycle]
             problems.append("partially directed cycle through the directed edges "
                             f"{', '.join(f'{u} -> {v}' for u, v in arcs)} "
                             "(joined by undirected paths): the graph must be a chain graph.")
-        except nx.NetworkXNoCycle:
-            pass
 
     # Step 2: every chain component chordal
-    whole = g.undirected_graph()
     for comp in comps:
         if len(comp) < 4:
             continue
-        und = whole.subgraph(comp)
-        if not nx.is_chordal(und):
+        und = {v: sorted(g.neighbors(v), key=g.index) for v in comp}
+        if _not_perfect(und) is not None:
             cyc = _chordless_cycle(und)
             problems.append(f"the undirected part containing {comp[0]} is not chordal: "
                             f"chordless cycle {' - '.join(map(str, cyc + cyc[:1]))}.")
@@ -115,7 +119,32 @@ def _path(cycle: list[tuple[Node, Node]]) -> str:
     return " -> ".join(str(u) for u, _ in cycle) + f" -> {cycle[0][0]}"
 
 
-def _chordless_cycle(und: nx.Graph) -> list[Node]:
+def _find_cycle(succ: Adjacency) -> list[tuple[Node, Node]] | None:
+    """The edges of one directed cycle, or None when there is none (depth-first search
+    from each node in turn, successors in the order given)."""
+    state: dict[Node, int] = {}  # 1: on the search path, 2: done
+    for root in succ:
+        if root in state:
+            continue
+        path, stack = [root], [iter(succ[root])]
+        state[root] = 1
+        while stack:
+            for w in stack[-1]:
+                if state.get(w) == 1:  # back to the path: a cycle
+                    loop = path[path.index(w):]
+                    return list(zip(loop, loop[1:] + loop[:1], strict=True))
+                if w not in state:
+                    state[w] = 1
+                    path.append(w)
+                    stack.append(iter(succ.get(w, ())))
+                    break
+            else:
+                state[path.pop()] = 2
+                stack.pop()
+    return None
+
+
+def _chordless_cycle(und: Adjacency) -> list[Node]:
     """One chordless cycle of length >= 4 of a non-chordal graph.
 
     For a vertex v and two non-adjacent neighbours u, w, a shortest u-w path that avoids
@@ -127,7 +156,7 @@ def _chordless_cycle(und: nx.Graph) -> list[Node]:
     for v in _suspects(und):
         nbrs = set(und[v])
         for u, w in itertools.combinations(sorted(nbrs, key=str), 2):
-            if und.has_edge(u, w):
+            if w in und[u]:
                 continue
             path = _shortest_path_avoiding(und, u, w, nbrs | {v})
             if path is not None:
@@ -135,30 +164,33 @@ def _chordless_cycle(und: nx.Graph) -> list[Node]:
     raise AssertionError("a non-chordal graph has a chordless cycle of length 4 or more")
 
 
-def _suspects(und: nx.Graph) -> list[Node]:
-    """Vertices in a useful order: the first failure of a perfect elimination order first."""
-    order: list[Node] = []
+def _not_perfect(und: Adjacency) -> Node | None:
+    """The first vertex of a maximum cardinality search whose earlier neighbours are not a
+    clique (the order is then no perfect elimination order), or None: the graph is
+    chordal (Tarjan & Yannakakis 1984; ties broken by the order of `und`)."""
     pos: dict[Node, int] = {}
     label = dict.fromkeys(und, 0)
-    first = None
-    while len(order) < len(label):
+    while len(pos) < len(label):
         v = max((x for x in label if x not in pos), key=label.__getitem__)
-        pos[v] = len(order)
-        order.append(v)
+        pos[v] = len(pos)
         earlier = [x for x in und[v] if x in pos and x != v]
-        if first is None and len(earlier) > 1:
+        if len(earlier) > 1:
             last = max(earlier, key=pos.__getitem__)
-            if any(x != last and not und.has_edge(x, last) for x in earlier):
-                first = v
+            if any(x != last and x not in und[last] for x in earlier):
+                return v
         for x in und[v]:
             if x not in pos:
                 label[x] += 1
-        if first is not None:
-            break
+    return None
+
+
+def _suspects(und: Adjacency) -> list[Node]:
+    """Vertices in a useful order: the first failure of a perfect elimination order first."""
+    first = _not_perfect(und)
     return ([first] if first is not None else []) + [x for x in und if x != first]
 
 
-def _shortest_path_avoiding(und: nx.Graph, u: Node, w: Node, avoid: set) -> list[Node] | None:
+def _shortest_path_avoiding(und: Adjacency, u: Node, w: Node, avoid: set) -> list[Node] | None:
     """A shortest u-w path whose inner vertices are not in `avoid` (breadth-first)."""
     prev = {u: None}
     queue = deque([u])

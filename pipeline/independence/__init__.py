@@ -19,7 +19,7 @@ _WHERE = {
     "GaussianTester": "pipeline.independence.gaussian",
     "invariance_test": "pipeline.independence.invariance",
     "response_matrix": "pipeline.independence.invariance",
-    "ResponseMatrix": "pipeline.independence.invariance",
+    "ResponseMatrix": "pipeline.independence.response",
 }
 
 __all__ = list(_WHERE)

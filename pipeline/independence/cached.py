@@ -7,12 +7,16 @@ integer, searched in the sorted stored codes), never row by row in Python. When 
 also keeps a packed copy of each level it changed (table ``held``: key rows, statistics
 and p-values as raw arrays); the next run reads those copies in one query instead of
 every row, and falls back to the rows when a copy is out of date (its level holds
-another number of rows: rows are only ever added, never changed).
+another number of rows: rows are only ever added, never changed). The wrapped tester
+may be given as a function that builds it: it is then built only when a test is
+missing, so that a run answered wholly from the store never prepares one (nor imports
+the libraries it computes with).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 
@@ -162,9 +166,10 @@ class CachedTester:
 
     Parameters
     ----------
-    inner : Tester or None
-        Computes the tests the store lacks; None means every test must be stored
-        (a missing one raises `LookupError`).
+    inner : Tester, callable returning a Tester, or None
+        Computes the tests the store lacks. A callable is called once, when the first
+        missing test is asked. None means every test must be stored (a missing one
+        raises `LookupError`).
     store : TestStore
     fingerprint : str
         The input fingerprint; entries of other fingerprints are never used.
@@ -181,9 +186,9 @@ class CachedTester:
 
     FLUSH_ROWS = 50_000
 
-    def __init__(self, inner: Tester | None, store: TestStore, fingerprint: str,
-                 n_regimes: int) -> None:
-        self.inner = inner
+    def __init__(self, inner: Tester | Callable[[], Tester] | None, store: TestStore,
+                 fingerprint: str, n_regimes: int) -> None:
+        self._inner = inner
         self.store = store
         self.fingerprint = fingerprint
         self.n_regimes = int(n_regimes)
@@ -196,6 +201,13 @@ class CachedTester:
         self._size: int | None = None
         self._dirty: set[tuple[str, str, int]] = set()
         self._packed: dict | None = None
+
+    @property
+    def inner(self) -> Tester | None:
+        """The wrapped tester (built on first use when given as a function)."""
+        if self._inner is not None and not hasattr(self._inner, "ci"):
+            self._inner = self._inner()
+        return self._inner
 
     def flush(self) -> None:
         """Write the pending results to the store (one transaction), then a packed copy of
@@ -270,7 +282,7 @@ class CachedTester:
         self.reused += int(found.size)
         if found.size == m:
             return TestResults(stat, pval, left if left.any() else None)
-        if self.inner is None:
+        if self._inner is None:
             raise LookupError(f"{m - found.size} {kind} tests are not in the store "
                               f"and no tester was given to compute them")
         # 2. compute the rest with the inner tester; queue them for the store

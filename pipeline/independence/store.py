@@ -8,7 +8,10 @@ fingerprint of the inputs and of the options that change the statistics:
 - the statistic, p-value and left-out regimes of every conditional-independence test
   (``kind="ci"``; the pair is unordered) and every invariance test (``kind="invariance"``,
   keyed by regime too), so that a rerun at another alpha computes only the tests never
-  run before.
+  run before;
+- named arrays that do not depend on alpha (the numbers of the input check: response
+  matrix, control agreement, neighbour p-values, target tests), so that a rerun applies
+  its alpha to them without computing them again (`pipeline.independence.numbers`).
 
 A different fingerprint never reuses an entry. The file is opened in write-ahead-log
 mode with a busy timeout, so that two runs writing one store at once wait for each other
@@ -84,6 +87,13 @@ CREATE TABLE IF NOT EXISTS held (
     pvalue      BLOB NOT NULL,
     left_out    TEXT NOT NULL,
     PRIMARY KEY (fid, kind, regime, size)
+) WITHOUT ROWID;
+CREATE TABLE IF NOT EXISTS numbers (
+    fid         INTEGER NOT NULL,
+    name        TEXT NOT NULL,
+    field       TEXT NOT NULL,
+    value       BLOB NOT NULL,
+    PRIMARY KEY (fid, name, field)
 ) WITHOUT ROWID;
 CREATE TABLE IF NOT EXISTS runs (
     id          INTEGER PRIMARY KEY AUTOINCREMENT,
@@ -378,6 +388,22 @@ class TestStore:
                            np.ascontiguousarray(pval, dtype="<f8").tobytes(), json.dumps(lefts)))
         if levels:
             self._write(put)
+
+    # -- named numbers --------------------------------------------------------------------
+    def load_numbers(self, fid: int) -> dict[str, dict[str, np.ndarray]]:
+        """Every named set of arrays kept for `fid` (one query), by name, then field."""
+        out: dict[str, dict[str, np.ndarray]] = {}
+        for name, field, value in self._con.execute(
+                "SELECT name, field, value FROM numbers WHERE fid = ?", (fid,)):
+            out.setdefault(name, {})[field] = _from_blob(value)
+        return out
+
+    def put_numbers(self, fid: int, name: str, arrays: dict[str, np.ndarray]) -> None:
+        """Keep the arrays of `name` for `fid` in one transaction (first write wins)."""
+        rows = [(fid, name, field, _to_blob(np.asarray(a))) for field, a in arrays.items()]
+        if rows:
+            self._write(lambda c: c.executemany(
+                "INSERT OR IGNORE INTO numbers VALUES (?,?,?,?)", rows))
 
     def insert(self, rows: list[tuple]) -> None:
         """Write rows ``(fid, kind, regime, size, x, y, cond, statistic, pvalue, left_out)``

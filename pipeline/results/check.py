@@ -22,7 +22,7 @@ from rich.table import Table
 
 from pipeline.design import Design, Regime
 from pipeline.errors import InputError
-from pipeline.independence.invariance import ResponseMatrix
+from pipeline.independence.response import ResponseMatrix
 from pipeline.results.formatting import (
     finite_or_none,
     format_p,

@@ -9,11 +9,26 @@ strength, explanation (numbers omitted when absent). Node data: kind (``variable
 from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
-from xml.sax.saxutils import escape, quoteattr
 
 from pipeline.results.schema import EdgeRecord
 
 __all__ = ["graphml_text"]
+
+#: XML's predefined entities for text, and for a double-quoted attribute value (where
+#: white space other than a blank is kept as character references).
+_TEXT = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;"})
+_ATTRIBUTE = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;",
+                            "\n": "&#10;", "\r": "&#13;", "\t": "&#9;"})
+
+
+def _escape(text: str) -> str:
+    """`text` as XML character data."""
+    return text.translate(_TEXT)
+
+
+def _quoteattr(value: str) -> str:
+    """`value` as a double-quoted XML attribute value."""
+    return '"' + value.translate(_ATTRIBUTE) + '"'
 
 _KEYS = (  # id, owner, name, type
     ("d0", "node", "kind", "string"),
@@ -39,11 +54,11 @@ def graphml_text(nodes: Sequence[str], edges: Iterable[EdgeRecord]) -> str:
             for k, owner, name, kind in _KEYS]
     out.append('  <graph edgedefault="directed">')
     for n in nodes:
-        out.append(f'    <node id={quoteattr(str(n))}><data key="d0">variable</data></node>')
+        out.append(f'    <node id={_quoteattr(str(n))}><data key="d0">variable</data></node>')
     for e in edges:
-        data = [f'<data key="d1">{escape(e.orientation)}</data>',
-                f'<data key="d2">{escape(e.rule)}</data>',
-                f'<data key="d3">{escape(";".join(e.via))}</data>',
+        data = [f'<data key="d1">{_escape(e.orientation)}</data>',
+                f'<data key="d2">{_escape(e.rule)}</data>',
+                f'<data key="d3">{_escape(";".join(e.via))}</data>',
                 f'<data key="d4">{"true" if e.conflict else "false"}</data>']
         if e.p_adjacency is not None:
             data.append(f'<data key="d5">{float(e.p_adjacency)!r}</data>')
@@ -52,8 +67,8 @@ def graphml_text(nodes: Sequence[str], edges: Iterable[EdgeRecord]) -> str:
         if e.strength is not None:
             data.append(f'<data key="d7">{float(e.strength)!r}</data>')
         if e.explanation:
-            data.append(f'<data key="d8">{escape(e.explanation)}</data>')
-        out.append(f'    <edge source={quoteattr(str(e.source))} '
-                   f'target={quoteattr(str(e.target))}>{"".join(data)}</edge>')
+            data.append(f'<data key="d8">{_escape(e.explanation)}</data>')
+        out.append(f'    <edge source={_quoteattr(str(e.source))} '
+                   f'target={_quoteattr(str(e.target))}>{"".join(data)}</edge>')
     out += ["  </graph>", "</graphml>", ""]
     return "\n".join(out)

@@ -22,7 +22,6 @@ from __future__ import annotations
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 
-import networkx as nx
 import numpy as np
 
 from pipeline.results.schema import EdgeRecord
@@ -75,11 +74,24 @@ def short_label(name: str) -> str:
 def components(nodes: list[str], edges: Sequence[EdgeRecord]
                 ) -> list[tuple[list[str], list[EdgeRecord]]]:
     """The connected parts (edges taken without direction), largest first, then by node order."""
-    g = nx.Graph()
-    g.add_nodes_from(nodes)
-    g.add_edges_from((e.source, e.target) for e in edges)
+    near: dict[str, list[str]] = {v: [] for v in nodes}
+    for e in edges:
+        near[e.source].append(e.target)
+        near[e.target].append(e.source)
     index = {v: i for i, v in enumerate(nodes)}
-    parts = [sorted(c, key=index.__getitem__) for c in nx.connected_components(g)]
+    parts, seen = [], set()
+    for v in nodes:  # depth-first search from each node not yet reached
+        if v in seen:
+            continue
+        seen.add(v)
+        part, stack = [v], [v]
+        while stack:
+            for w in near[stack.pop()]:
+                if w not in seen:
+                    seen.add(w)
+                    part.append(w)
+                    stack.append(w)
+        parts.append(sorted(part, key=index.__getitem__))
     parts.sort(key=lambda c: (-len(c), index[c[0]]))
     where = {v: k for k, c in enumerate(parts) for v in c}
     part_edges: list[list[EdgeRecord]] = [[] for _ in parts]

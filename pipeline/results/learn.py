@@ -15,7 +15,6 @@ from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-import networkx as nx
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
@@ -27,7 +26,8 @@ from pipeline.results.formatting import format_count, format_p
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.results.tables import edge_records, edges_frame, removed_frame
 
-if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
+if TYPE_CHECKING:  # networkx and pandas are imported where a graph or table is made
+    import networkx as nx
     import pandas as pd
 
 __all__ = ["LearnResult"]
@@ -152,6 +152,8 @@ class LearnResult:
         A directed edge is one arc; an undirected edge two opposite arcs, both with
         ``orientation="undirected"``.
         """
+        import networkx as nx
+
         d = nx.DiGraph()
         d.add_nodes_from(self.design.variables, kind="variable")
         for e in self.edge_records:

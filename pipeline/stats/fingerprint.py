@@ -1,29 +1,32 @@
 """A content fingerprint of the inputs, to tell whether stored statistics still apply.
 
-The fingerprint is the SHA-256 of the raw bytes of every data file (in the order given),
-of the regimes file, and of the options that change the statistics (regime column,
-ignored columns, dropping of missing rows, reference, test; and, when they differ from
-their defaults, the decimal mark, the regime source, the worksheet and the chosen
-genes). File names and dates do not enter, with two exceptions that change how the
-bytes are read: the format ending of a file that is not CSV or Parquet (``.tsv``,
-``.gz``, ``.xlsx``, ``.h5ad``, ...), and, with ``regime_from="filename"``, the file
-names that become the regime names. Otherwise renaming or touching a file keeps its
-fingerprint; editing one byte changes it.
-Hashing reads the bytes in blocks and parses nothing, so it is cheap next to reading.
+The fingerprint is the SHA-256 of the SHA-256 digests (with the sizes) of every data file
+(in the order given) and of the regimes file, and of the options that change the
+statistics (regime column, ignored columns, dropping of missing rows, reference, test;
+and, when they differ from their defaults, the decimal mark, the regime source, the
+worksheet and the chosen genes). File names and dates do not enter, with two exceptions
+that change how the bytes are read: the format ending of a file that is not CSV or
+Parquet (``.tsv``, ``.gz``, ``.xlsx``, ``.h5ad``, ...), and, with
+``regime_from="filename"``, the file names that become the regime names. Otherwise
+renaming or touching a file keeps its fingerprint; editing one byte changes it.
+Hashing reads the bytes in blocks and parses nothing, so it is cheap next to reading; each
+file is hashed once, its digest kept for the provenance of the result.
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
+import threading
 from collections.abc import Sequence
 from pathlib import Path
 
 from pipeline.errors import InputError
 
-__all__ = ["fingerprint_inputs", "statistics_options"]
+__all__ = ["fingerprint_inputs", "statistics_options", "hash_in_background", "file_digest",
+           "file_key", "FILE_HASHES"]
 
-_FORMAT = b"orienteer.fingerprint/1"
+_FORMAT = b"orienteer.fingerprint/2"
 #: The version of the statistics and tests kept under a fingerprint: raised whenever a
 #: test's definition changes, so that a store never answers with results of an older one.
 METHODS_VERSION = 3
@@ -74,21 +77,67 @@ def file_key(path: Path) -> tuple[str, int, int]:
     return (str(path.resolve()), int(st.st_size), int(st.st_mtime_ns))
 
 
-def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
-    try:
-        key = file_key(path)
-        fh = open(path, "rb")  # noqa: SIM115 - read-only, closed below
-    except OSError as exc:
-        raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
-    alone = hashlib.sha256()
-    with fh:
-        h.update(role + b"\0" + str(key[1]).encode() + b"\0")
+#: Digests being computed by `hash_in_background`, by file key: set when in FILE_HASHES.
+_PENDING: dict[tuple[str, int, int], threading.Event] = {}
+
+
+def hash_in_background(paths: Sequence[str | Path]) -> None:
+    """Start hashing the files `paths` on a background thread.
+
+    A fingerprint asked for later waits for these digests instead of reading the bytes
+    itself. Called before the heavy imports of a command, the hashing (which releases the
+    interpreter lock) runs on another core meanwhile. A file that cannot be read is left
+    to `fingerprint_inputs`, which reports it.
+    """
+    jobs = []
+    for p in paths:
+        try:
+            key = file_key(Path(p))
+        except OSError:
+            continue
+        if key not in _PENDING and key not in FILE_HASHES:
+            _PENDING[key] = done = threading.Event()
+            jobs.append((Path(p), key, done))
+
+    def run() -> None:
+        for path, key, done in jobs:
+            try:
+                FILE_HASHES[key] = file_digest(path)
+            except OSError:
+                pass  # reported by the fingerprint, which reads the file again
+            finally:
+                done.set()
+
+    if jobs:
+        threading.Thread(target=run, name="orienteer-hash", daemon=True).start()
+
+
+def file_digest(path: Path, stop=None) -> str:
+    """Hex SHA-256 of the bytes of `path` (raises `_Stopped` once `stop` is set)."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
         while block := fh.read(_BLOCK):
             if stop is not None and stop.is_set():
                 raise _Stopped
             h.update(block)
-            alone.update(block)
-    FILE_HASHES[key] = alone.hexdigest()
+    return h.hexdigest()
+
+
+def _hash_file(h: hashlib._Hash, path: Path, role: bytes, stop=None) -> None:
+    """Feed `h` the role, size and digest of `path` (the digest kept in `FILE_HASHES`;
+    taken from `hash_in_background` when it hashed the file as it is now)."""
+    try:
+        key = file_key(path)
+        pending = _PENDING.pop(key, None)
+        digest = None
+        if pending is not None:
+            pending.wait()
+            digest = FILE_HASHES.get(key)
+        if digest is None:
+            digest = FILE_HASHES[key] = file_digest(path, stop)
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be read ({exc.strerror}); check the path") from None
+    h.update(role + b"\0" + str(key[1]).encode() + b"\0" + digest.encode() + b"\0")
 
 
 def fingerprint_inputs(data: Sequence[str | Path], regimes: str | Path, *,
