@@ -70,9 +70,6 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import TYPE_CHECKING
-
 import numpy as np
 from scipy.special import erfc
 
@@ -88,15 +85,11 @@ from pipeline.independence.fisher_z import (
     _eliminate,
 )
 from pipeline.independence.laws import f_upper_tail
-from pipeline.independence.multiplicity import benjamini_hochberg
+from pipeline.independence.response import ResponseMatrix
 from pipeline.stats.moments import Moments, merge_moments
 
-if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
-    import pandas as pd
-
 __all__ = ["KURTOSIS_MARGIN", "invariance_test", "regime_pair", "residual_kurtosis",
-           "response_matrix",
-           "ResponseMatrix", "standardized_difference"]
+           "response_matrix", "standardized_difference"]
 
 #: A variable whose variance is below this fraction of its scale counts as constant
 #: (the same rule as ``Moments.constant``).
@@ -276,75 +269,6 @@ def invariance_test(n_ref: int, mean_ref: np.ndarray, scatter_ref: np.ndarray,
     x, _, cond = _check_tests(p, x, None, cond)
     pair = _Pair(int(n_ref), mean_ref, scatter_ref, int(n_k), mean_k, scatter_k, m4_ref, m4_k)
     return pair.test(x, cond)
-
-
-@dataclass
-class ResponseMatrix:
-    """Marginal response of every variable to every non-reference regime.
-
-    Attributes
-    ----------
-    regimes : tuple of str, length R
-        The non-reference regimes, in design order.
-    variables : tuple of str, length p
-    shift : array (R, p)
-        Standardized mean shift ``(mean_k - mean_ref) / sd_ref`` (sd of the pooled
-        reference, ddof 1); +-inf when the reference is constant and the mean moved.
-    statistic : array (R, p)
-        Statistic of the marginal invariance test (mean and variance).
-    pvalue : array (R, p)
-    sd_ratio : array (R, p)
-        ``sd_k / sd_ref``: the effect on the spread (inf when the reference is constant).
-    adjusted : array (R, p)
-        Benjamini-Hochberg adjusted p-values over the whole matrix.
-    """
-
-    regimes: tuple[str, ...]
-    variables: tuple[str, ...]
-    shift: np.ndarray
-    pvalue: np.ndarray
-    statistic: np.ndarray
-    sd_ratio: np.ndarray | None = None
-    adjusted: np.ndarray | None = None
-
-    def __post_init__(self) -> None:
-        shape = np.shape(self.pvalue)
-        if self.sd_ratio is None:
-            self.sd_ratio = np.full(shape, np.nan)
-        if self.adjusted is None:
-            self.adjusted = benjamini_hochberg(self.pvalue)
-
-    def shifted(self, alpha: float) -> np.ndarray:
-        """(R, p) mask of the variables whose marginal law moved (raw p <= alpha)."""
-        return self.pvalue <= alpha
-
-    def marked(self, alpha: float) -> np.ndarray:
-        """(R, p) mask of the responses reported as moved (adjusted p <= alpha)."""
-        return self.adjusted <= alpha
-
-    def to_frame(self) -> pd.DataFrame:
-        """Long format: one row per (regime, variable)."""
-        import pandas as pd
-
-        r, p = len(self.regimes), len(self.variables)
-        return pd.DataFrame({
-            "regime": np.repeat(np.asarray(self.regimes, dtype=object), p),
-            "variable": np.tile(np.asarray(self.variables, dtype=object), r),
-            "shift": self.shift.ravel(),
-            "sd_ratio": self.sd_ratio.ravel(),
-            "statistic": self.statistic.ravel(),
-            "pvalue": self.pvalue.ravel(),
-            "adjusted": self.adjusted.ravel(),
-        })
-
-    def summary(self, top: int = 20) -> str:
-        """A plain-text table of the largest responses (by p-value, then |shift|)."""
-        frame = self.to_frame()
-        frame = frame.assign(_abs=frame["shift"].abs()).sort_values(
-            ["pvalue", "_abs"], ascending=[True, False]).drop(columns="_abs")
-        head = (f"Response matrix: {len(self.regimes)} regimes x {len(self.variables)} "
-                f"variables (marginal invariance test against the reference)")
-        return head + "\n" + frame.head(top).to_string(index=False, float_format="%.3g")
 
 
 def response_matrix(moments: Moments, design: Design) -> ResponseMatrix:
