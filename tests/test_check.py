@@ -281,3 +281,25 @@ def test_learn_leaves_known_targets_to_the_learner():
     full = check_intake(Intake(intake.design, intake.moments, "", 0, []), alpha=0.01)
     full = with_learner_verdicts(full, result.learned.target_verdicts)
     assert json.dumps(result.check.to_dict()) == json.dumps(full.to_dict())
+
+
+def test_control_like_regime_warned_unless_its_target_moved():
+    # a regime copied from the control (no effect at all) looks like a control; a regime
+    # whose only effect is a variance change of its target, small enough to escape the
+    # matrix's Benjamini-Hochberg adjustment but seen by the target's own test, does not
+    rng = np.random.default_rng(2)
+    n = 400
+    base = rng.normal(size=(3 * n, 4))
+    data = pd.DataFrame(base, columns=["A", "B", "C", "D"])
+    data["C"] = data["A"] + 0.5 * rng.normal(size=3 * n)
+    data.loc[2 * n:, "D"] *= 1.15  # variance change only, in regime "spread"
+    data.insert(0, "regime", ["ctrl"] * n + ["copy"] * n + ["spread"] * n)
+    regimes = pd.DataFrame({"regime": ["ctrl", "copy", "spread"], "targets": ["", "B", "D"],
+                            "known": ["yes"] * 3})
+    res = check_intake(_intake(data, regimes), alpha=0.01)
+    # the case this is about: D's own p passes, its Benjamini-Hochberg adjustment does not
+    assert res.response.pvalue[1, 3] <= 0.01 < res.response.adjusted[1, 3]
+    verdicts = {t.regime: t.verdict for t in res.targets}
+    assert verdicts == {"copy": NOT_MOVED, "spread": MOVED}
+    assert any("regime copy: no variable moved" in w for w in res.warnings)
+    assert not any("regime spread: no variable moved" in w for w in res.warnings)

@@ -191,8 +191,11 @@ def check_intake(intake: Intake, alpha: float = 0.01, numbers: StoredNumbers | N
                              learner_checks_targets)
     for t in targets:
         warnings.extend(_target_warning(t, alpha))
+    target_moved = {t.regime for t in targets if t.verdict != NOT_MOVED}
     for i, name in enumerate(response.regimes):
-        if not np.any(response.marked(alpha)[i]):
+        # a regime whose declared target moved is warned about no further (a weak or
+        # variance-only effect may pass its own test and not the matrix's adjustment)
+        if name not in target_moved and not np.any(response.marked(alpha)[i]):
             warnings.append(f"regime {name}: no variable moved (Benjamini-Hochberg adjusted "
                             f"p <= {alpha:g}); the regime looks like a control")
 
