@@ -191,13 +191,7 @@ def check_intake(intake: Intake, alpha: float = 0.01, numbers: StoredNumbers | N
                              learner_checks_targets)
     for t in targets:
         warnings.extend(_target_warning(t, alpha))
-    target_moved = {t.regime for t in targets if t.verdict != NOT_MOVED}
-    for i, name in enumerate(response.regimes):
-        # a regime whose declared target moved is warned about no further (a weak or
-        # variance-only effect may pass its own test and not the matrix's adjustment)
-        if name not in target_moved and not np.any(response.marked(alpha)[i]):
-            warnings.append(f"regime {name}: no variable moved (Benjamini-Hochberg adjusted "
-                            f"p <= {alpha:g}); the regime looks like a control")
+    warnings.extend(_control_like(response, targets, alpha))
 
     # 6. the shape of the distributions (the Gaussian tests' assumption)
     shape = distribution_shape(moments)
@@ -307,18 +301,31 @@ def _target_warning(t: TargetCheck, alpha: float) -> list[str]:
             "node only if that test does not see it either"]
 
 
+def _control_like(response: ResponseMatrix, targets: list[TargetCheck],
+                  alpha: float) -> list[str]:
+    """Warnings for the regimes where nothing moved: no response after the matrix's
+    adjustment, and no declared target seen to move by its own tests (a weak or
+    variance-only effect may pass its own test and not the adjustment)."""
+    target_moved = {t.regime for t in targets if t.verdict != NOT_MOVED}
+    marked = response.marked(alpha)
+    return [f"regime {name}: no variable moved (Benjamini-Hochberg adjusted p <= {alpha:g}); "
+            "the regime looks like a control" for i, name in enumerate(response.regimes)
+            if name not in target_moved and not np.any(marked[i])]
+
+
 def with_learner_verdicts(result: CheckResult, verdicts: list) -> CheckResult:
     """The check with each declared target's conditional test taken from the learner.
 
     `verdicts` are `pipeline.learner.targets.TargetVerdict` (given the target's neighbours
     in the learned skeleton, a better conditioning set than the check's estimate). The
-    target warnings are rewritten to match; a target that failed both tests is reported
-    by the learner's own warning.
+    target warnings, and those of regimes that look like a control, are rewritten to
+    match; a target that failed both tests is reported by the learner's own warning.
     """
     by_key = {(v.regime, v.target): v for v in verdicts}
     if not by_key:
         return result
     old_texts = {w for t in result.targets for w in _target_warning(t, result.alpha)}
+    old_texts |= set(_control_like(result.response, result.targets, result.alpha))
     targets = []
     for t in result.targets:
         v = by_key.get((t.regime, t.target))
@@ -332,6 +339,7 @@ def with_learner_verdicts(result: CheckResult, verdicts: list) -> CheckResult:
         if (t.regime, t.target) in by_key and t.verdict == NOT_MOVED:
             continue  # the learner says it, with what it does about it
         warnings.extend(_target_warning(t, result.alpha))
+    warnings.extend(_control_like(result.response, targets, result.alpha))
     return replace(result, targets=targets, warnings=warnings)
 
 
