@@ -2,8 +2,10 @@
 
 Outside references: the residual sums of squares of statsmodels OLS fits on the raw rows
 (separate fits and the fit on the union) give Chow's F (Chow 1960) and the variance
-ratio, with p-values from scipy.stats.f; the excess kurtosis is scipy.stats.kurtosis with
-bias=False (the adjusted estimator G2 of Joanes & Gill 1998); the two p-values are joined
+ratio, with p-values from scipy.stats.f; the fourth cumulant of the response is
+scipy.stats.kstat(x, 4) (the unbiased k-statistic) and R^2 comes from the same fits, from which
+the pooled residual kurtosis of Layard (1973) is built as the module docstring says; the
+two p-values are joined
 by the Cauchy combination of Liu & Xie (2020) written out by hand; null p-values are
 checked for uniformity with scipy.stats.kstest.
 """
@@ -34,7 +36,7 @@ def _m4(rows: np.ndarray) -> np.ndarray:
 
 def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> float:
     """The invariance p-value from statsmodels fits and scipy laws (module docstring)."""
-    from pipeline.independence.invariance import KURTOSIS_MARGIN
+    from pipeline.independence.invariance import KURTOSIS_ALLOWANCE
 
     fits = [_ols(rows, x, cond) for rows in (ref, regime, np.vstack([ref, regime]))]
     q, n_ref, n_k = len(cond) + 1, len(ref), len(regime)
@@ -43,13 +45,18 @@ def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> 
     f_coef = ((fits[2].ssr - within) / q) / (within / (n - 2 * q))
     p_coef = stats.f.sf(f_coef, q, n - 2 * q)
     kappa = 0.0
-    if tails:  # G2 of x pooled over the regimes, floored at 0, carried to the residual
-        g2 = (n_ref * stats.kurtosis(ref[:, x], bias=False)
-              + n_k * stats.kurtosis(regime[:, x], bias=False)) / n
-        r2 = (n_ref * fits[0].rsquared + n_k * fits[1].rsquared) / n if cond else 0.0
-        relative, absolute = KURTOSIS_MARGIN
-        kappa = (max(g2, 0.0) / (1 - min(r2, 0.99)) * (1 + relative / n**0.75)
-                 + absolute / np.sqrt(n))
+    if tails:  # Layard's pooled kurtosis of the residuals, their k4 carried over from x's
+        m4, hidden = 0.0, 0.0
+        for rows, fit in zip((ref, regime), fits[:2], strict=True):
+            nr, u = len(rows), 1.0 - fit.rsquared if cond else 1.0
+            amplify = 1.0 / (u**2 + (1 - u) ** 2 / len(cond)) if cond else 1.0
+            k4 = stats.kstat(rows[:, x], 4)  # scipy: the unbiased fourth cumulant
+            m4 += nr * amplify * u**2 * k4 + 3 * fit.ssr**2 / nr
+            hidden += nr / n * (amplify**2 - 2 * amplify * u**2 + 1)
+        nu = n - 2 * q
+        pooled = n * m4 / within**2 * (nu + 2) / nu - 3
+        point = max(pooled - 24 / n / pooled, 0.0) if pooled > 0 else 0.0
+        kappa = point + KURTOSIS_ALLOWANCE * np.sqrt(24 / n * hidden)
     d_ref, d_k = (n_ref - q) * 2 / (2 + kappa), (n_k - q) * 2 / (2 + kappa)
     ratio = fits[1].mse_resid / fits[0].mse_resid
     p_var = min(1.0, 2 * min(stats.f.cdf(ratio, d_k, d_ref), stats.f.sf(ratio, d_k, d_ref)))
@@ -85,6 +92,20 @@ def test_equals_statsmodels_fits(l_size, tails):
         expected = _by_hand(ref, regime, x[i], list(cond[i]), tails)
         assert res.pvalue[i] == pytest.approx(expected, rel=1e-7, abs=1e-300)
         assert res.statistic[i] == pytest.approx(stats.norm.isf(expected / 2), rel=1e-7)
+
+
+def test_carry_over_exact_for_equal_independent_terms():
+    # fourth cumulants of independent terms add (common practice): X = e + m terms of e's
+    # variance and excess kurtosis g has k4(X) = (m + 1) g and 1 - R^2 = 1 / (m + 1), so the
+    # residual's kurtosis must come back as g (the sampling terms vanish at this n)
+    from pipeline.independence.invariance import residual_kurtosis
+
+    g, n = 2.5, np.array([1e9, 1e9])
+    for m in (1, 3, 10):
+        u = 1.0 / (m + 1)  # the share of each term and of the residual in var(X) = 1
+        kappa = residual_kurtosis(np.full((1, 2), (m + 1) * g * u * u), np.full((1, 2), u),
+                                  (n * u)[None, :], n, m)
+        assert kappa[0] == pytest.approx(g, rel=1e-3)
 
 
 def test_reference_pooled_from_several_controls():

@@ -26,7 +26,7 @@ __all__ = ["fingerprint_inputs", "statistics_options"]
 _FORMAT = b"orienteer.fingerprint/1"
 #: The version of the statistics and tests kept under a fingerprint: raised whenever a
 #: test's definition changes, so that a store never answers with results of an older one.
-METHODS_VERSION = 2
+METHODS_VERSION = 3
 _BLOCK = 1 << 20
 
 
