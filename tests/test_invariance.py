@@ -3,9 +3,10 @@
 Outside references: the residual sums of squares of statsmodels OLS fits on the raw rows
 (separate fits and the fit on the union) give Chow's F (Chow 1960) and the variance
 ratio, with p-values from scipy.stats.f; the fourth cumulant of the response is
-scipy.stats.kstat(x, 4) (the unbiased k-statistic) and R^2 comes from the same fits, from which
-the pooled residual kurtosis of Layard (1973) is built as the module docstring says; the
-two p-values are joined
+scipy.stats.kstat(x, 4) (the unbiased k-statistic), that of the regressors
+scipy.stats.kurtosis with bias=False (the adjusted G2 of Joanes & Gill 1998), and R^2 comes
+from the same fits, from which the pooled residual kurtosis of Layard (1973) is built as the
+module docstring says; the two p-values are joined
 by the Cauchy combination of Liu & Xie (2020) written out by hand; null p-values are
 checked for uniformity with scipy.stats.kstest.
 """
@@ -56,6 +57,10 @@ def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> 
         nu = n - 2 * q
         pooled = n * m4 / within**2 * (nu + 2) / nu - 3
         point = max(pooled - 24 / n / pooled, 0.0) if pooled > 0 else 0.0
+        if cond:  # the regressors' G2 (scipy), averaged over S and the two regimes
+            g = sum(len(rows) * np.mean(stats.kurtosis(rows[:, list(cond)], bias=False))
+                    for rows in (ref, regime)) / n
+            point = max(point, max(g - 24 / n / g, 0.0) if g > 0 else 0.0)
         kappa = point + KURTOSIS_ALLOWANCE * np.sqrt(24 / n * hidden)
     d_ref, d_k = (n_ref - q) * 2 / (2 + kappa), (n_k - q) * 2 / (2 + kappa)
     ratio = fits[1].mse_resid / fits[0].mse_resid
