@@ -12,6 +12,8 @@ Run from the repository root::
 
     python benchmarks/bench_calibration.py              # 3000 data sets per cell (1500 at n=2000)
     python benchmarks/bench_calibration.py --quick      # 300 per cell, a smoke run
+    python benchmarks/bench_calibration.py --test invariance --reps 10000 --seed 1
+                                                        # one test's cells, more data sets
 """
 
 from __future__ import annotations
@@ -68,6 +70,8 @@ def main(argv: list[str] | None = None) -> int:
                         help="null data sets per cell (half of it at n = 2000)")
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument("--quick", action="store_true", help="300 data sets per cell")
+    parser.add_argument("--test", choices=("ci", "invariance"), default=None,
+                        help="only this test's cells (both variants)")
     parser.add_argument("--no-append", action="store_true", help="print only")
     args = parser.parse_args(argv)
     reps = 300 if args.quick else args.reps
@@ -75,6 +79,8 @@ def main(argv: list[str] | None = None) -> int:
     rows = []
     started = time.perf_counter()
     for i, (test, variant, family, n, size, k) in enumerate(cells()):
+        if args.test is not None and test != args.test:
+            continue
         pv = pvalues(test, family, n, size, regimes=k, rank=variant == "rank",
                      reps=reps if n <= 500 else reps // 2, seed=args.seed * 1000 + i)
         rate = float(np.mean(pv <= ALPHA))

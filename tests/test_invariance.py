@@ -4,8 +4,10 @@ Outside references: the residual sums of squares of statsmodels OLS fits on the 
 (separate fits and the fit on the union) give Chow's F (Chow 1960), with p-values from
 scipy.stats.f, and Bartlett's statistic on the residual variances (Bartlett 1937), with
 p-values from scipy.stats.chi2 (and equal to scipy.stats.bartlett when S is empty); the
-excess kurtosis is scipy.stats.kurtosis with
-bias=False (the adjusted estimator G2 of Joanes & Gill 1998); the two p-values are joined
+fourth cumulant of the response is scipy.stats.kstat(x, 4) (the unbiased k-statistic),
+that of the regressors scipy.stats.kurtosis with bias=False (the adjusted G2 of Joanes &
+Gill 1998), and R^2 comes from the same fits, from which the pooled residual kurtosis of
+Layard (1973) is built as the module docstring says; the two p-values are joined
 by the Cauchy combination of Liu & Xie (2020) written out by hand; null p-values are
 checked for uniformity with scipy.stats.kstest.
 """
@@ -36,7 +38,7 @@ def _m4(rows: np.ndarray) -> np.ndarray:
 
 def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> float:
     """The invariance p-value from statsmodels fits and scipy laws (module docstring)."""
-    from pipeline.independence.invariance import KURTOSIS_MARGIN
+    from pipeline.independence.invariance import KURTOSIS_ALLOWANCE
 
     fits = [_ols(rows, x, cond) for rows in (ref, regime, np.vstack([ref, regime]))]
     q, n_ref, n_k = len(cond) + 1, len(ref), len(regime)
@@ -45,16 +47,25 @@ def _by_hand(ref: np.ndarray, regime: np.ndarray, x: int, cond, tails: bool) -> 
     f_coef = ((fits[2].ssr - within) / q) / (within / (n - 2 * q))
     p_coef = stats.f.sf(f_coef, q, n - 2 * q)
     kappa = 0.0
-    if tails:  # G2 of x pooled over the regimes, floored at 0, carried to the residual
-        g2 = (n_ref * stats.kurtosis(ref[:, x], bias=False)
-              + n_k * stats.kurtosis(regime[:, x], bias=False)) / n
-        r2 = (n_ref * fits[0].rsquared + n_k * fits[1].rsquared) / n if cond else 0.0
-        relative, absolute = KURTOSIS_MARGIN
-        kappa = (max(g2, 0.0) / (1 - min(r2, 0.99)) * (1 + relative / n**0.75)
-                 + absolute / np.sqrt(n))
+    if tails:  # Layard's pooled kurtosis of the residuals, their k4 carried over from x's
+        m4, hidden = 0.0, 0.0
+        for rows, fit in zip((ref, regime), fits[:2], strict=True):
+            nr, u = len(rows), 1.0 - fit.rsquared if cond else 1.0
+            amplify = 1.0 / (u**2 + (1 - u) ** 2 / len(cond)) if cond else 1.0
+            k4 = stats.kstat(rows[:, x], 4)  # scipy: the unbiased fourth cumulant
+            m4 += nr * amplify * u**2 * k4 + 3 * fit.ssr**2 / nr
+            hidden += nr / n * (amplify**2 - 2 * amplify * u**2 + 1)
+        nu = n - 2 * q
+        pooled = n * m4 / within**2 * (nu + 2) / nu - 3
+        point = max(pooled - 24 / n / pooled, 0.0) if pooled > 0 else 0.0
+        if cond:  # the regressors' G2 (scipy), averaged over S and the two regimes
+            g = sum(len(rows) * np.mean(stats.kurtosis(rows[:, list(cond)], bias=False))
+                    for rows in (ref, regime)) / n
+            point = max(point, max(g - 24 / n / g, 0.0) if g > 0 else 0.0)
+        kappa = point + KURTOSIS_ALLOWANCE * np.sqrt(24 / n * hidden)
     d_ref, d_k = n_ref - q, n_k - q  # Bartlett's M on the residual variances, Box's scale
-    pooled = (fits[0].ssr + fits[1].ssr) / (d_ref + d_k)
-    m = (d_ref + d_k) * np.log(pooled) - d_ref * np.log(fits[0].mse_resid) - d_k * np.log(
+    s2_pooled = (fits[0].ssr + fits[1].ssr) / (d_ref + d_k)
+    m = (d_ref + d_k) * np.log(s2_pooled) - d_ref * np.log(fits[0].mse_resid) - d_k * np.log(
         fits[1].mse_resid)
     c = 1 + (1 / d_ref + 1 / d_k - 1 / (d_ref + d_k)) / 3
     p_var = stats.chi2.sf(m / c / (1 + kappa / 2), 1)
@@ -106,6 +117,20 @@ def test_variance_part_is_bartletts_test():
         t = 0.5 * (1 / np.tan(np.pi * p1) + 1 / np.tan(np.pi * p2))
         expected = np.arctan(1 / t) / np.pi if t > 0 else 0.5 + np.arctan(-t) / np.pi
         assert res.pvalue[j] == pytest.approx(expected, rel=1e-9)
+
+
+def test_carry_over_exact_for_equal_independent_terms():
+    # fourth cumulants of independent terms add (common practice): X = e + m terms of e's
+    # variance and excess kurtosis g has k4(X) = (m + 1) g and 1 - R^2 = 1 / (m + 1), so the
+    # residual's kurtosis must come back as g (the sampling terms vanish at this n)
+    from pipeline.independence.invariance import residual_kurtosis
+
+    g, n = 2.5, np.array([1e9, 1e9])
+    for m in (1, 3, 10):
+        u = 1.0 / (m + 1)  # the share of each term and of the residual in var(X) = 1
+        kappa = residual_kurtosis(np.full((1, 2), (m + 1) * g * u * u), np.full((1, 2), u),
+                                  (n * u)[None, :], n, m)
+        assert kappa[0] == pytest.approx(g, rel=1e-3)
 
 
 def test_reference_pooled_from_several_controls():

@@ -29,7 +29,7 @@ __all__ = ["fingerprint_inputs", "statistics_options", "hash_in_background", "fi
 _FORMAT = b"orienteer.fingerprint/2"
 #: The version of the statistics and tests kept under a fingerprint: raised whenever a
 #: test's definition changes, so that a store never answers with results of an older one.
-METHODS_VERSION = 3
+METHODS_VERSION = 4
 _BLOCK = 1 << 20
 
 
