@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from pipeline.errors import InputError
@@ -64,6 +64,9 @@ def tables(draw):
        reference=st.sampled_from([None, "ctrl", "kd", "nope"]),
        ignore=st.sampled_from([(), ("plate",), ("X3",)]),
        test=st.sampled_from(["gaussian", "rank"]), chunk=st.integers(1, 30))
+@example(table=(["X1", "X2", "regime", "X3"], [["1", "1", "ctrl", "NaN"]]),  # found by the search:
+         regimes="regime,targets\nctrl,\nkd,X1\n", drop=True, reference=None, ignore=(),
+         test="rank", chunk=1)  # the reference loses its only row (once a ValueError)
 def test_intake_returns_or_raises_input_error(table, regimes, drop, reference, ignore, test, chunk):
     header, rows = table
     with tempfile.TemporaryDirectory() as folder:

@@ -192,12 +192,12 @@ def read_inputs(data: Sequence[str | Path], regimes: str | Path, *, regime_colum
 
     # 3. missing values, regimes without data
     warnings = state.finish()
-    moments = state.moments()
-    empty = [names[k] for k in np.flatnonzero(moments.count == 0)]
+    empty = [names[k] for k in np.flatnonzero(state.counts() == 0)]
     if empty:
         after = " (after dropping rows with missing values)" if state.dropped else ""
         raise InputError(f"regime(s) {', '.join(empty)} of {regimes_path} have no rows in the "
                          f"data{after}; remove their rows from the regimes file or add their data")
+    moments = state.moments()
     # 4. checks of the statistics
     warnings += check_statistics(moments)
     design = Design(variables=variables,
@@ -294,6 +294,13 @@ class _Pass:
                              f"in, or pass --drop-missing to drop those rows")
         return [f"dropped {self.dropped} rows with missing or non-finite values "
                 f"(cells per column: {', '.join(counts)}; first at {self.first_missing})"]
+
+    def counts(self) -> np.ndarray:
+        """Rows kept per regime so far."""
+        if self.keep_rows:
+            return np.bincount(np.concatenate([c for c, _ in self.kept] + [np.zeros(0, int)]),
+                               minlength=len(self.names))
+        return self.acc.count
 
     def moments(self) -> Moments:
         if self.keep_rows:
