@@ -9,7 +9,6 @@ computation is `pipeline.analyses.check`.
 
 from __future__ import annotations
 
-import io
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -28,6 +27,7 @@ from pipeline.results.formatting import (
     format_p,
     format_shift,
     json_matrix,
+    plain_text,
     short_shift,
 )
 
@@ -316,10 +316,7 @@ class CheckResult:
     # -- text -----------------------------------------------------------------------------
     def summary(self, width: int = 100) -> str:
         """The same tables as `print`, as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console)
-        return console.file.getvalue()
+        return plain_text(self.print, width)
 
     def print(self, console: Console) -> None:
         """Print the check as tables on `console`."""

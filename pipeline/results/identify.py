@@ -8,7 +8,6 @@ without test evidence). The computation is `pipeline.analyses.identify`.
 
 from __future__ import annotations
 
-import io
 from dataclasses import dataclass, field
 
 from rich.console import Console
@@ -19,7 +18,7 @@ from pipeline.design import Design
 from pipeline.graphs.essential import EssentialGraph
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
-from pipeline.results.formatting import format_count
+from pipeline.results.formatting import format_count, plain_text
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 
 __all__ = ["IdentifyResult"]
@@ -73,10 +72,7 @@ class IdentifyResult:
 
     def summary(self, width: int = 100) -> str:
         """A readable text summary: class size, per-regime figures, the edges."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console)
-        return console.file.getvalue()
+        return plain_text(self.print, width)
 
     def print(self, console: Console) -> None:
         """Print the summary as rich tables on `console`."""

@@ -9,7 +9,6 @@ networkx (``.to_networkx()``), and ``.save(folder)`` writes the result files
 
 from __future__ import annotations
 
-import io
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
@@ -22,7 +21,7 @@ from rich.table import Table
 from pipeline.design import Design
 from pipeline.graphs.pdag import PDAG
 from pipeline.learner.evidence import Learned
-from pipeline.results.formatting import format_count, format_p
+from pipeline.results.formatting import format_count, format_p, plain_text
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.results.tables import edge_records, edges_frame, removed_frame
 
@@ -177,10 +176,7 @@ class LearnResult:
     # -- text -----------------------------------------------------------------------------------
     def summary(self, width: int = 100) -> str:
         """The same tables as `print`, as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console, max_rows=None)
-        return console.file.getvalue()
+        return plain_text(self.print, width, max_rows=None)
 
     def print(self, console: Console, max_rows: int | None = MAX_ROWS) -> None:
         """Counts, the edge table, regimes, off-target findings, conflicts and warnings."""

@@ -13,7 +13,6 @@ itself (`print`, `summary`), converts to ``plan.json`` (`to_dict`, format
 from __future__ import annotations
 
 import html
-import io
 import json
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -24,7 +23,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from pipeline.errors import InputError
-from pipeline.results.formatting import finite_or_none, format_count
+from pipeline.results.formatting import finite_or_none, format_count, plain_text
 
 __all__ = ["FORMAT", "RankedExperiment", "PlannedStep", "PlanResult"]
 
@@ -188,10 +187,7 @@ class PlanResult:
 
     def summary(self, width: int = 110) -> str:
         """The terminal tables as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console)
-        return console.file.getvalue()
+        return plain_text(self.print, width)
 
     def print(self, console: Console) -> None:
         """Print the ranking, the plan and the bounds as rich tables on `console`."""

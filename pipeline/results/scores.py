@@ -9,13 +9,14 @@ computation is `pipeline.analyses.scoring`.
 
 from __future__ import annotations
 
-import io
 from dataclasses import asdict, dataclass
 from typing import Any
 
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
+
+from pipeline.results.formatting import plain_text
 
 __all__ = ["Scores", "Comparison"]
 
@@ -57,10 +58,7 @@ class Scores:
 
     def summary(self, width: int = 100) -> str:
         """The same table as `print`, as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console)
-        return console.file.getvalue()
+        return plain_text(self.print, width)
 
     def print(self, console: Console, title: str = "") -> None:
         """A table of the scores on `console`."""
@@ -118,10 +116,7 @@ class Comparison:
 
     def summary(self, width: int = 100) -> str:
         """The same table as `print`, as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console)
-        return console.file.getvalue()
+        return plain_text(self.print, width)
 
     def print(self, console: Console, title: str = "") -> None:
         """One table: a column per reference."""

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.results.formatting import plain_text
 
 __all__ = ["SweepResult", "FORMAT", "CSV_COLUMNS", "STABLE", "VARIES"]
 
@@ -190,12 +191,7 @@ class SweepResult:
         return out
 
     def summary(self, width: int = 100) -> str:
-        from rich.console import Console
-
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console, max_rows=None)
-        return console.file.getvalue()
+        return plain_text(self.print, width, max_rows=None)
 
     def print(self, console: Any, max_rows: int | None = MAX_ROWS) -> None:
         """Totals per alpha, the verdict counts, and the pairs that are not stable."""

@@ -13,7 +13,6 @@ its section of the report (`html_section`). The computation is
 from __future__ import annotations
 
 import html
-import io
 import json
 import math
 from dataclasses import asdict, dataclass, field
@@ -27,7 +26,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from pipeline.errors import InputError
-from pipeline.results.formatting import finite_or_none, format_count
+from pipeline.results.formatting import finite_or_none, format_count, plain_text
 
 __all__ = ["FORMAT", "METHODS", "LABELS", "Prediction", "HeldOutRegime", "ValidationResult"]
 
@@ -265,10 +264,7 @@ class ValidationResult:
     # -- text -----------------------------------------------------------------------------
     def summary(self, width: int = 110) -> str:
         """The same as `print`, as plain text."""
-        console = Console(file=io.StringIO(), width=width, color_system=None,
-                          force_terminal=False)
-        self.print(console, max_regimes=None)
-        return console.file.getvalue()
+        return plain_text(self.print, width, max_regimes=None)
 
     def print(self, console: Console, max_regimes: int | None = MAX_REGIMES) -> None:
         """The measures as a table, then the verdicts and notes, on `console`."""
