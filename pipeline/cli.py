@@ -127,6 +127,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # the reader of the output left (`| head`): stop quietly
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())  # no second fault when Python flushes at exit
+        return 141  # 128 + SIGPIPE, as a shell reports a writer whose reader left
     except Exception as exc:  # noqa: BLE001 - every fault becomes exit 1 with a log
         if debug:
             import traceback

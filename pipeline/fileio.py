@@ -9,7 +9,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import IO, Any
 
-__all__ = ["atomic_write", "write_text", "write_json", "read_json"]
+__all__ = ["atomic_write", "write_text", "write_json", "read_json", "json_text"]
 
 _UMASK = os.umask(0o022)
 os.umask(_UMASK)
@@ -43,9 +43,51 @@ def write_text(path: str | Path, text: str) -> Path:
     return atomic_write(path, lambda fh: fh.write(text))
 
 
+def json_text(obj: Any, levels: int = 2) -> str:
+    """`obj` as JSON text: the outer `levels` of objects and arrays one member per line
+    (indented by two spaces), each deeper value on one line.
+
+    A result's edges, regimes and matrix rows thus read one per line, and each is encoded
+    by the standard library's C encoder (indenting every level goes through its slower
+    pure-Python one). NaN and infinity are refused, as JSON has neither.
+
+    >>> print(json_text({"edges": [{"source": "A", "via": ["I1"]}], "n": 1}), end="")
+    {
+      "edges": [
+        {"source": "A", "via": ["I1"]}
+      ],
+      "n": 1
+    }
+    """
+    return _json_lines(obj, levels, "") + "\n"
+
+
+def _json_lines(obj: Any, levels: int, pad: str) -> str:
+    if levels <= 0 or not isinstance(obj, (dict, list, tuple)) or not obj:
+        return json.dumps(obj, allow_nan=False)
+    inner = pad + "  "
+    if isinstance(obj, dict):
+        members = [f"{inner}{json.dumps(_key(k))}: {_json_lines(v, levels - 1, inner)}"
+                   for k, v in obj.items()]
+        return "{\n" + ",\n".join(members) + "\n" + pad + "}"
+    members = [inner + _json_lines(v, levels - 1, inner) for v in obj]
+    return "[\n" + ",\n".join(members) + "\n" + pad + "]"
+
+
+def _key(k: Any) -> str:
+    """A member name as the standard encoder writes it (JSON names are strings)."""
+    if isinstance(k, str):
+        return k
+    if k is None or isinstance(k, bool):
+        return json.dumps(k)
+    if isinstance(k, (int, float)):
+        return json.dumps({k: 0})[1:-4]
+    raise TypeError(f"keys must be str, int, float, bool or None, not {type(k).__name__}")
+
+
 def write_json(path: str | Path, obj: Any) -> Path:
-    """Write `obj` as indented JSON to `path` atomically."""
-    return write_text(path, json.dumps(obj, indent=2, allow_nan=False) + "\n")
+    """Write `obj` as JSON (`json_text`) to `path` atomically."""
+    return write_text(path, json_text(obj))
 
 
 def read_json(path: str | Path) -> Any:

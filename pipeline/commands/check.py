@@ -22,16 +22,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     inputs = measurement_inputs(args)
-    from rich.console import Console
-    from rich.markup import escape
-
     from pipeline.analyses.check import check
+    from pipeline.terminal import Terminal, escape
 
     result = check(inputs.data, inputs.regimes, alpha=args.alpha, test=args.test,
                    progress=sys.stderr.isatty(), **inputs.options)
-    console = Console()
+    console = Terminal()
     result.print(console)
     if args.out:
         for path in result.write(args.out).values():
-            console.print(f"wrote {escape(str(path))}", highlight=False)
+            console.print(f"wrote {escape(str(path))}")
     return 0

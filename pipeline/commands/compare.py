@@ -28,11 +28,10 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--truth-dag: missing; name the true DAG file (columns source,target)")
     import json
 
-    from rich.console import Console
-
     from pipeline.analyses.scoring import compare_result
     from pipeline.intake.dag import read_dag_csv
     from pipeline.results.schema import ResultRecord
+    from pipeline.terminal import Terminal
 
     path = Path(args.result)
     if path.is_dir():
@@ -60,7 +59,7 @@ def run(args: argparse.Namespace) -> int:
                "truth_regimes": args.truth_regimes, **comparison.to_dict()}
         print(json.dumps(out, indent=2, allow_nan=False))
     else:
-        comparison.print(Console(), title=f"{path} against {args.truth_dag}")
+        comparison.print(Terminal(), title=f"{path} against {args.truth_dag}")
     return 0
 
 

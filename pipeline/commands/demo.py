@@ -31,20 +31,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from rich.console import Console
-
     from pipeline.analyses.check import check
     from pipeline.commands.learn import print_files
     from pipeline.progress import Progress
+    from pipeline.terminal import Terminal
     from pipeline.workflow import learn
 
     folder = demo_folder()
     out = Path(args.out or DEFAULT_OUT)
     data, regimes = folder / "measurements.csv", folder / "regimes.csv"
-    console = Console()
-    console.rule("[bold]1. check the inputs[/bold]")
+    console = Terminal()
+    console.section("[bold]1. check the inputs[/bold]")
     check([data], regimes).print(console)
-    console.rule("[bold]2. learn the graph[/bold]")
+    console.section("[bold]2. learn the graph[/bold]")
     with Progress() as bars:
         result = learn([data], regimes, out=out, progress=bars, picture=True)
     result.print(console)
@@ -54,7 +53,7 @@ def run(args: argparse.Namespace) -> int:
         from pipeline.intake.dag import read_dag_csv
         from pipeline.intake.regimes import read_regimes
 
-        console.rule("[bold]3. against the true circuit (known for invented data)[/bold]")
+        console.section("[bold]3. against the true circuit (known for invented data)[/bold]")
         record = result.record()
         actual = folder / "truth_regimes.csv"
         truth_regimes = (read_regimes(actual, variables=record.nodes) if actual.is_file()

@@ -25,14 +25,12 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--dag: missing; name the known graph file (columns source,target)")
     if not args.regimes:
         raise InputError("--regimes: missing; name the regimes file (columns regime,targets)")
-    from rich.console import Console
-    from rich.markup import escape
-
     from pipeline.analyses.identify import identify
     from pipeline.design import Design
     from pipeline.fileio import write_text
     from pipeline.intake.dag import read_dag_csv
     from pipeline.intake.regimes import read_regimes
+    from pipeline.terminal import Terminal, escape
 
     regimes = read_regimes(args.regimes, variables=None, reference=args.reference)
     extra = [t for r in regimes for t in r.targets]
@@ -46,10 +44,10 @@ def run(args: argparse.Namespace) -> int:
         if args.reference:
             settings["reference"] = args.reference
         path = write_text(args.out, result.record(settings).to_json())
-    console = Console()
+    console = Terminal()
     result.print(console)
     if path is not None:
-        console.print(f"wrote {escape(str(path))}", highlight=False)
+        console.print(f"wrote {escape(str(path))}")
     return 0
 
 

@@ -69,12 +69,11 @@ def run(args: argparse.Namespace) -> int:
     from pipeline.stats.fingerprint import hash_in_background
 
     hash_in_background([*inputs.data, inputs.regimes])  # meanwhile: the imports below
-    from rich.console import Console
-
     from pipeline.progress import Progress
+    from pipeline.terminal import Terminal
     from pipeline.workflow import learn
 
-    console = Console()
+    console = Terminal()
     with Progress() as bars:
         result = learn(inputs.data, inputs.regimes, out=args.out, alpha=args.alpha,
                        max_condition_size=args.max_condition_size, targets=args.targets,
@@ -83,10 +82,9 @@ def run(args: argparse.Namespace) -> int:
                        picture=bool(args.picture), progress=bars,
                        **inputs.options)
     if result.run.get("notice"):
-        from rich.markup import escape
+        from pipeline.terminal import escape
 
-        console.print(f"[yellow]note:[/yellow] {escape(result.run['notice'])}", highlight=False,
-                      soft_wrap=True)
+        console.print(f"[yellow]note:[/yellow] {escape(result.run['notice'])}", wrap=False)
     result.print(console)
     print_files(Path(args.out), console)
     return 0
@@ -94,12 +92,10 @@ def run(args: argparse.Namespace) -> int:
 
 def print_files(out: Path, console) -> None:
     """Where the files are, and the report's path."""
-    from rich.markup import escape
-
     from pipeline.results.files import BOOTSTRAP_FILE, RESULT_FILES
+    from pipeline.terminal import escape
     from pipeline.workflow import STORE_NAME
 
     present = [n for n in (*RESULT_FILES, BOOTSTRAP_FILE, STORE_NAME) if (out / n).is_file()]
-    console.print(f"results in {escape(str(out))}/: {', '.join(present)}", highlight=False)
-    console.print(f"[bold]report:[/bold] {escape(str((out / 'report.html').resolve()))}",
-                  highlight=False)
+    console.print(f"results in {escape(str(out))}/: {', '.join(present)}")
+    console.print(f"[bold]report:[/bold] {escape(str((out / 'report.html').resolve()))}")

@@ -38,10 +38,8 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("RESULT: missing; name the result.json written by learn or identify")
     from pathlib import Path
 
-    from rich.console import Console
-    from rich.markup import escape
-
     from pipeline.analyses.plan import plan
+    from pipeline.terminal import Terminal, escape
 
     candidates = args.candidates
     if isinstance(candidates, (list, tuple)):  # a list in a config file
@@ -52,12 +50,12 @@ def run(args: argparse.Namespace) -> int:
     source = Path(result.result)
     out = _out_path(args.out, source)
     path = result.write(out)  # written before printing: a closed pipe cannot lose it
-    console = Console()
+    console = Terminal()
     result.print(console)
-    console.print(f"wrote {escape(str(path))}", highlight=False)
+    console.print(f"wrote {escape(str(path))}")
     report = _refresh(path, source)
     if report is not None:
-        console.print(f"[bold]report:[/bold] {escape(str(report.resolve()))}", highlight=False)
+        console.print(f"[bold]report:[/bold] {escape(str(report.resolve()))}")
     return 0
 
 

@@ -40,18 +40,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     if not args.out:
         raise InputError("--out: missing; name the folder to write the simulated files into")
-    from rich.console import Console
-    from rich.markup import escape
-    from rich.table import Table
-
     from pipeline.simulation import simulate
+    from pipeline.terminal import Table, Terminal, escape
 
     sim = simulate(nodes=args.nodes, degree=args.degree, regimes=args.perturbations,
                    targets_per_regime=args.targets_per_regime, samples=args.samples,
                    kind=args.kind, strength=args.strength, off_target=args.off_target,
                    seed=args.seed, controls=args.controls)
     paths = sim.save(args.out)
-    console = Console()
+    console = Terminal()
     table = Table(title=f"simulated {len(sim.data)} rows, {args.nodes} variables, "
                         f"{sim.truth_dag.number_of_edges()} edges")
     table.add_column("regime")
@@ -59,10 +56,12 @@ def run(args: argparse.Namespace) -> int:
     table.add_column("actual targets")
     for (_, dec), (_, act) in zip(sim.regimes.iterrows(), sim.truth_regimes.iterrows(),
                                   strict=True):
-        style = "yellow" if dec["targets"] != act["targets"] else None
-        table.add_row(dec["regime"], dec["targets"] or "(control)", act["targets"] or "(control)",
-                      style=style)
+        cells = [escape(dec["regime"]), escape(dec["targets"] or "(control)"),
+                 escape(act["targets"] or "(control)")]
+        if dec["targets"] != act["targets"]:  # an off-target action: shown in yellow
+            cells = [f"[yellow]{c}[/yellow]" for c in cells]
+        table.add_row(*cells)
     console.print(table)
     for path in paths.values():
-        console.print(f"wrote {escape(str(path))}", highlight=False)
+        console.print(f"wrote {escape(str(path))}")
     return 0

@@ -26,22 +26,20 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("DIR: missing; name the --out folder of a learn run")
     from pathlib import Path
 
-    from rich.console import Console
-    from rich.markup import escape
-
     from pipeline.analyses.sweep import sweep
     from pipeline.fileio import write_text
     from pipeline.progress import Progress
     from pipeline.results.files import refresh_report
+    from pipeline.terminal import Terminal, escape
 
     folder = Path(args.dir)
     with Progress() as bars:
         result = sweep(folder, args.alpha, progress=bars)
-    console = Console()
+    console = Terminal()
     result.print(console)
     write_text(folder / "sweep.csv", result.to_csv())
     write_text(folder / "sweep.json", result.to_json())
     report = refresh_report(folder)
     console.print(f"wrote {escape(str(folder / 'sweep.csv'))} and sweep.json; "
-                  f"[bold]report:[/bold] {escape(str(report.resolve()))}", highlight=False)
+                  f"[bold]report:[/bold] {escape(str(report.resolve()))}")
     return 0

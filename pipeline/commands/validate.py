@@ -54,13 +54,11 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--holdout: empty; name regimes (R1,R2) or use --holdout-all")
     from pathlib import Path
 
-    from rich.console import Console
-    from rich.markup import escape
-
     from pipeline.analyses.validate import validate
     from pipeline.progress import Progress
+    from pipeline.terminal import Terminal, escape
 
-    console = Console()
+    console = Terminal()
     with Progress() as bars:
         result = validate(inputs.data, inputs.regimes, out=args.out, holdout=holdout,
                           holdout_all=bool(args.holdout_all), alpha=args.alpha,
@@ -70,11 +68,9 @@ def run(args: argparse.Namespace) -> int:
                           seed=args.seed, progress=bars, **inputs.options)
     result.print(console)
     files = result.run.get("files", {})
-    console.print(f"results in {escape(str(Path(args.out)))}/: {', '.join(files)}",
-                  highlight=False)
+    console.print(f"results in {escape(str(Path(args.out)))}/: {', '.join(files)}")
     if result.run.get("report"):
-        console.print(f"[bold]report:[/bold] {escape(str(Path(result.run['report']).resolve()))}",
-                      highlight=False)
+        console.print(f"[bold]report:[/bold] {escape(str(Path(result.run['report']).resolve()))}")
     elif result.run.get("report_note"):
-        console.print(escape(result.run["report_note"]), highlight=False)
+        console.print(escape(result.run["report_note"]))
     return 0

@@ -162,9 +162,9 @@ class BootstrapResult:
         return "\n".join(lines)
 
     def print(self, console: Any) -> None:
-        from rich.markup import escape
+        from pipeline.terminal import escape
 
-        console.print(escape(self.summary()), highlight=False)
+        console.print(escape(self.summary()))
 
     def html_section(self) -> str:
         """The report section: what was resampled, and the pairs whose evidence is weak."""

@@ -14,10 +14,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from rich import box
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
 
 from pipeline.design import Design, Regime
 from pipeline.errors import InputError
@@ -27,9 +23,9 @@ from pipeline.results.formatting import (
     format_p,
     format_shift,
     json_matrix,
-    plain_text,
     short_shift,
 )
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
     import pandas as pd
@@ -318,12 +314,12 @@ class CheckResult:
         """The same tables as `print`, as plain text."""
         return plain_text(self.print, width)
 
-    def print(self, console: Console) -> None:
+    def print(self, console: Terminal) -> None:
         """Print the check as tables on `console`."""
         d = self.design
         console.print(f"[bold]Input check[/bold]: {sum(self.samples.values())} samples, "
                       f"{len(d.variables)} variables, {len(d.regimes)} regimes; alpha = "
-                      f"{self.alpha:g}", highlight=False)
+                      f"{self.alpha:g}")
         if self.dropped_rows:
             console.print(f"{self.dropped_rows} rows with missing values dropped")
         t = Table(title="Samples per regime")
@@ -342,15 +338,15 @@ class CheckResult:
         self._print_controls(console)
         if self.shape is not None and self.shape.far:
             console.print(f"Far from Gaussian (|skewness| or excess kurtosis large): "
-                          f"{escape(', '.join(self.shape.far))}", highlight=False)
+                          f"{escape(', '.join(self.shape.far))}")
         if self.warnings:
-            console.print("[bold yellow]Warnings[/bold yellow]")
+            console.print("\n[bold yellow]Warnings[/bold yellow]")
             for w in self.warnings:
-                console.print(f"[yellow]-[/yellow] {escape(w)}", highlight=False)
+                console.print(f"[yellow]-[/yellow] {escape(w)}")
         else:
             console.print("No warnings.")
 
-    def _print_targets(self, console: Console) -> None:
+    def _print_targets(self, console: Terminal) -> None:
         t = Table(title="Declared targets: did the intervention move them?")
         for col in ("regime", "target", "shift (sd)", "sd ratio", "p", "p adjusted",
                     "p given neighbours", "verdict"):
@@ -365,7 +361,7 @@ class CheckResult:
                       format_p(c.conditional_pvalue), f"[{colour}]{c.verdict}[/{colour}]")
         console.print(t)
 
-    def _print_response(self, console: Console) -> None:
+    def _print_response(self, console: Terminal) -> None:
         """The response matrix, split into column blocks that fit the console width."""
         resp = self.response
         names = list(resp.variables[:MAX_COLUMNS])
@@ -374,7 +370,7 @@ class CheckResult:
         if len(resp.variables) > MAX_COLUMNS:
             title += (f"; first {MAX_COLUMNS} of {len(resp.variables)} variables "
                       "(all in response.csv)")
-        console.print(title, highlight=False)
+        console.print(f"\n[bold]{title}[/bold]")
         first = max([len("regime")] + [len(r) for r in resp.regimes])
         widths = [max(len(v), 5) for v in names]
         room = max(console.width - first - 2, 8)
@@ -389,7 +385,7 @@ class CheckResult:
             blocks.append(block)
         marked = resp.marked(self.alpha)
         for block in blocks:
-            t = Table(box=box.SIMPLE_HEAD, padding=(0, 1), pad_edge=False)
+            t = Table()
             t.add_column("regime", no_wrap=True, min_width=first)
             for j in block:
                 t.add_column(escape(names[j]), justify="right", no_wrap=True,
@@ -406,7 +402,7 @@ class CheckResult:
                 t.add_row(escape(name), *cells)
             console.print(t)
 
-    def _print_controls(self, console: Console) -> None:
+    def _print_controls(self, console: Terminal) -> None:
         if self.controls is None:
             console.print("Control batches: one control regime, nothing to compare")
             return
@@ -427,7 +423,7 @@ class CheckResult:
         if self.demoted:
             line += (f"; reference: {escape(', '.join(self.reference))}; analysed apart: "
                      f"{escape(', '.join(self.demoted))}")
-        console.print(line, highlight=False)
+        console.print(line)
 
 
 def _float(v: Any) -> float:

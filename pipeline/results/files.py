@@ -10,14 +10,13 @@ write their own files beside it and render ``report.html`` again from the folder
 
 from __future__ import annotations
 
-import json
 import os
 import time
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from pipeline.errors import InputError
-from pipeline.fileio import atomic_write, read_json, write_text
+from pipeline.fileio import atomic_write, json_text, read_json, write_text
 from pipeline.results.check import CheckResult
 from pipeline.results.drawing import MAX_DRAWN
 from pipeline.results.report import render_report
@@ -60,8 +59,7 @@ def save_learn(result: LearnResult, folder: str | Path, picture: bool = False
              "removed.csv": removed_csv(result.learned),
              "graph.graphml": result.graphml()}
     if result.check is not None:
-        texts["check.json"] = json.dumps(result.check.to_dict(), indent=2,
-                                         allow_nan=False) + "\n"
+        texts["check.json"] = json_text(result.check.to_dict())
         texts["response.csv"] = result.check.response_csv()
     sections = []
     if result.bootstrap is not None:

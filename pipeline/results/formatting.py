@@ -6,7 +6,6 @@
 
 from __future__ import annotations
 
-import io
 import math
 from collections.abc import Iterable
 
@@ -68,12 +67,3 @@ def format_count(n: int) -> str:
     head = int(str(n)[:17])
     return f"about 10^{math.log10(head) + digits - 17:.1f}"
 
-
-def plain_text(print_tables, width: int, **options) -> str:
-    """What ``print_tables(console, **options)`` shows on a terminal, as plain text of
-    `width` columns (the `summary` of every result type)."""
-    from rich.console import Console
-
-    console = Console(file=io.StringIO(), width=width, color_system=None, force_terminal=False)
-    print_tables(console, **options)
-    return console.file.getvalue()

@@ -10,16 +10,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
-
 from pipeline.design import Design
 from pipeline.graphs.essential import EssentialGraph
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
-from pipeline.results.formatting import format_count, plain_text
+from pipeline.results.formatting import format_count
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 __all__ = ["IdentifyResult"]
 
@@ -74,8 +71,8 @@ class IdentifyResult:
         """A readable text summary: class size, per-regime figures, the edges."""
         return plain_text(self.print, width)
 
-    def print(self, console: Console) -> None:
-        """Print the summary as rich tables on `console`."""
+    def print(self, console: Terminal) -> None:
+        """Print the summary as tables on `console`."""
         rec = self.record()
         n_dir, n_und = len(self.directed_edges), len(self.undirected_edges)
         console.print(f"Identifiable from the design: {len(self.nodes)} variables, "
@@ -107,7 +104,7 @@ class IdentifyResult:
             console.print(f"... and {len(rec.edges) - MAX_EDGE_ROWS} more edges "
                           "(write them all with --out)")
         for w in self.warnings:
-            console.print(f"warning: {escape(w)}", highlight=False)
+            console.print(f"warning: {escape(w)}")
 
 
 def _name(x) -> str:

@@ -14,16 +14,13 @@ from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
-
 from pipeline.design import Design
 from pipeline.graphs.pdag import PDAG
 from pipeline.learner.evidence import Learned
-from pipeline.results.formatting import format_count, format_p, plain_text
+from pipeline.results.formatting import format_count, format_p
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.results.tables import edge_records, edges_frame, removed_frame
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 if TYPE_CHECKING:  # networkx and pandas are imported where a graph or table is made
     import networkx as nx
@@ -178,7 +175,7 @@ class LearnResult:
         """The same tables as `print`, as plain text."""
         return plain_text(self.print, width, max_rows=None)
 
-    def print(self, console: Console, max_rows: int | None = MAX_ROWS) -> None:
+    def print(self, console: Terminal, max_rows: int | None = MAX_ROWS) -> None:
         """Counts, the edge table, regimes, off-target findings, conflicts and warnings."""
         g = self.graph
         n_dir = sum(1 for _ in g.directed_edges())
@@ -186,14 +183,12 @@ class LearnResult:
         s = self.settings
         ref = ", ".join(r.name for r in self.design.reference)
         console.print(f"[bold]Learned graph[/bold]: {len(self.design.variables)} variables, "
-                      f"{len(self.design.regimes)} regimes (reference: {escape(ref)})",
-                      highlight=False)
+                      f"{len(self.design.regimes)} regimes (reference: {escape(ref)})")
         console.print(f"{n_dir + n_und} edges ({n_dir} directed, {n_und} undirected); "
-                      f"DAGs in the class: {format_count(self.class_size)}", highlight=False)
+                      f"DAGs in the class: {format_count(self.class_size)}")
         console.print(f"settings: alpha = {s.get('alpha')}, max condition size = "
                       f"{s.get('max_condition_size')}, targets = {s.get('targets')}, test = "
-                      f"{s.get('test')}, collider rule = {s.get('collider_rule')}",
-                      highlight=False)
+                      f"{s.get('test')}, collider rule = {s.get('collider_rule')}")
         if not self.valid:
             console.print("[red]not a valid essential graph:[/red] "
                           + escape("; ".join(self.learned.problems)))
@@ -220,7 +215,7 @@ class LearnResult:
         if any(e.orientation == "directed" for e in shown):
             console.print("strength: -log10 of the weakest test behind the direction (2: "
                           "p = 0.01); why each edge has its direction: edges.csv "
-                          "(explanation) and report.html", highlight=False)
+                          "(explanation) and report.html")
         if boot:
             self.bootstrap.print(console)
         t = Table(title="Regimes: declared and detected targets")
@@ -235,23 +230,22 @@ class LearnResult:
         for f in self.learned.findings:
             if f.status == "off-target":
                 console.print(f"[yellow]off-target[/yellow]: {escape(f.regime)} acts on "
-                              f"{escape(f.variable)} (p = {format_p(f.pvalue)})",
-                              highlight=False)
+                              f"{escape(f.variable)} (p = {format_p(f.pvalue)})")
         for c in self.learned.conflicts:
             console.print(f"[yellow]conflict[/yellow]: {escape(c.source)} -- "
                           f"{escape(c.target)}: the result keeps {escape(c.kept)}; "
-                          + escape("; ".join(c.reasons)), highlight=False)
+                          + escape("; ".join(c.reasons)))
         levels = ", ".join(f"{k}: {v}" for k, v in sorted(self.learned.tests_per_level.items()))
-        console.print(f"tests per conditioning-set size: {levels}", highlight=False)
+        console.print(f"tests per conditioning-set size: {levels}")
         if self.run.get("computed") is not None:
             console.print(f"tests computed: {self.run['computed']}, reused from the store: "
                           f"{self.run.get('reused', 0)}"
                           + ("; statistics read from the store (no data file parsed)"
-                             if self.run.get("from_store") else ""), highlight=False)
+                             if self.run.get("from_store") else ""))
         if self.warnings:
-            console.print("[bold yellow]Warnings[/bold yellow]")
+            console.print("\n[bold yellow]Warnings[/bold yellow]")
             for w in self.warnings:
-                console.print(f"[yellow]-[/yellow] {escape(w)}", highlight=False)
+                console.print(f"[yellow]-[/yellow] {escape(w)}")
 
     def __repr__(self) -> str:
         return f"LearnResult({self.graph!r}, class_size={self.class_size})"

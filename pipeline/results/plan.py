@@ -13,17 +13,13 @@ itself (`print`, `summary`), converts to ``plan.json`` (`to_dict`, format
 from __future__ import annotations
 
 import html
-import json
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
-
 from pipeline.errors import InputError
-from pipeline.results.formatting import finite_or_none, format_count, plain_text
+from pipeline.results.formatting import finite_or_none, format_count
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 __all__ = ["FORMAT", "RankedExperiment", "PlannedStep", "PlanResult"]
 
@@ -129,7 +125,9 @@ class PlanResult:
         }
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+        from pipeline.fileio import json_text
+
+        return json_text(self.to_dict())
 
     @classmethod
     def from_dict(cls, d: dict[str, Any], where: str = "plan.json") -> PlanResult:
@@ -189,14 +187,13 @@ class PlanResult:
         """The terminal tables as plain text."""
         return plain_text(self.print, width)
 
-    def print(self, console: Console) -> None:
-        """Print the ranking, the plan and the bounds as rich tables on `console`."""
+    def print(self, console: Terminal) -> None:
+        """Print the ranking, the plan and the bounds as tables on `console`."""
         s = self.settings
-        console.print(escape(f"Planning on {self.result or 'the result'}: {self.headline()}"),
-                      highlight=False)
+        console.print(escape(f"Planning on {self.result or 'the result'}: {self.headline()}"))
         if not self.ranking:
             for n in self.notes:
-                console.print(escape(f"note: {n}"), highlight=False)
+                console.print(escape(f"note: {n}"))
             return
         t = Table(title=escape(f"Next experiment: {self.experiments_scored:,} candidate "
                                f"experiment(s) of up to {s.get('max_targets', 1)} target(s), "
@@ -214,8 +211,7 @@ class PlanResult:
                       _pm(r.p_identified, r.se_identified, r.exact, digits=3))
         console.print(t)
         if len(self.ranking) > MAX_ROWS:
-            console.print(f"... {len(self.ranking) - MAX_ROWS} more rows in plan.json",
-                          highlight=False)
+            console.print(f"... {len(self.ranking) - MAX_ROWS} more rows in plan.json")
         if self.plan:
             t = Table(title=escape(f"Plan of {len(self.plan)} experiment(s) ({self.method})"))
             for col, right in (("step", True), ("targets", False), ("exp. newly oriented", True),
@@ -230,12 +226,12 @@ class PlanResult:
                           f"{p.p_identified:.3f}")
             console.print(t)
         for line in self._bound_lines():
-            console.print(escape(line), highlight=False)
+            console.print(escape(line))
         if not self.exact:
             console.print("* estimated from uniform draws of the class (+- one standard "
-                          "error); worst cases are the worst among the draws", highlight=False)
+                          "error); worst cases are the worst among the draws")
         for n in self.notes:
-            console.print(escape(f"note: {n}"), highlight=False)
+            console.print(escape(f"note: {n}"))
 
     def _bound_lines(self) -> list[str]:
         b = self.lower_bounds

@@ -6,9 +6,8 @@ The field names are the outside contract (CONTRACT.md); add fields, never rename
 
 from __future__ import annotations
 
-import json
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -19,6 +18,12 @@ __all__ = ["FORMAT", "EdgeRecord", "RegimeRecord", "ResultRecord"]
 
 FORMAT = "orienteer.result/1"
 RULES = ("intervention", "collider", "meek-1", "meek-2", "meek-3", "meek-4", "none")
+
+
+def _shallow(record: Any) -> dict[str, Any]:
+    """A record's fields as a dict, lists copied one level (what `asdict` gives for these
+    records, without its deep copy of every nested value)."""
+    return {k: list(v) if isinstance(v, list) else v for k, v in vars(record).items()}
 
 
 @dataclass
@@ -85,8 +90,8 @@ class ResultRecord:
         return {
             "format": self.format,
             "nodes": list(self.nodes),
-            "regimes": [asdict(r) for r in self.regimes],
-            "edges": [asdict(e) for e in self.edges],
+            "regimes": [_shallow(r) for r in self.regimes],
+            "edges": [_shallow(e) for e in self.edges],
             "class_size": int(self.class_size),
             "log10_class_size": (round(self.log10_class_size, 6) if self.class_size > 0
                                  else None),  # 0: not a valid essential graph
@@ -100,7 +105,9 @@ class ResultRecord:
         }
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+        from pipeline.fileio import json_text
+
+        return json_text(self.to_dict())
 
     def graph(self) -> PDAG:
         """The result's graph as a PDAG over ``nodes``."""

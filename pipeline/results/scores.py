@@ -12,11 +12,7 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass
 from typing import Any
 
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
-
-from pipeline.results.formatting import plain_text
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 __all__ = ["Scores", "Comparison"]
 
@@ -60,7 +56,7 @@ class Scores:
         """The same table as `print`, as plain text."""
         return plain_text(self.print, width)
 
-    def print(self, console: Console, title: str = "") -> None:
+    def print(self, console: Terminal, title: str = "") -> None:
         """A table of the scores on `console`."""
         def f(v: float | None) -> str:
             return "n/a" if v is None else f"{v:.3f}"
@@ -118,7 +114,7 @@ class Comparison:
         """The same table as `print`, as plain text."""
         return plain_text(self.print, width)
 
-    def print(self, console: Console, title: str = "") -> None:
+    def print(self, console: Terminal, title: str = "") -> None:
         """One table: a column per reference."""
         def f(v: float | None) -> str:
             return "n/a" if v is None else f"{v:.3f}"
@@ -149,4 +145,4 @@ class Comparison:
                       + ("" if self.true_targets else
                          " (give --truth-regimes for the targets that really acted)")
                       + (". result's targets: the same under the targets the result was "
-                         "learned with" if len(cols) > 2 else ""), highlight=False)
+                         "learned with" if len(cols) > 2 else ""))

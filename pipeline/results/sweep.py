@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import html
 import io
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -25,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
-from pipeline.results.formatting import plain_text
+from pipeline.terminal import plain_text
 
 __all__ = ["SweepResult", "FORMAT", "CSV_COLUMNS", "STABLE", "VARIES"]
 
@@ -154,7 +153,9 @@ class SweepResult:
                 "totals": [dict(t) for t in self.totals], "pairs": pairs}
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+        from pipeline.fileio import json_text
+
+        return json_text(self.to_dict())
 
     @classmethod
     def from_dict(cls, d: dict[str, Any], where: str = "sweep.json") -> SweepResult:
@@ -195,8 +196,7 @@ class SweepResult:
 
     def print(self, console: Any, max_rows: int | None = MAX_ROWS) -> None:
         """Totals per alpha, the verdict counts, and the pairs that are not stable."""
-        from rich.markup import escape
-        from rich.table import Table
+        from pipeline.terminal import Table, escape
 
         t = Table(title="Sweep: the graph at each significance level")
         for col in ("alpha", "edges", "directed", "undirected", "class size",
@@ -210,7 +210,7 @@ class SweepResult:
         c = self.counts()
         console.print(f"pairs adjacent at some alpha: {sum(c.values())}; stable across the "
                       f"range: {c[STABLE]}; orientation varies: {c[VARIES]}; adjacent at "
-                      f"some alphas only: {c['partial']}", highlight=False)
+                      f"some alphas only: {c['partial']}")
         frame = self.edges()
         frame = frame[frame["verdict"] != STABLE]
         if len(frame):

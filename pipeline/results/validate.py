@@ -21,12 +21,10 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
 
 from pipeline.errors import InputError
-from pipeline.results.formatting import finite_or_none, format_count, plain_text
+from pipeline.results.formatting import finite_or_none, format_count
+from pipeline.terminal import Table, Terminal, escape, plain_text
 
 __all__ = ["FORMAT", "METHODS", "LABELS", "Prediction", "HeldOutRegime", "ValidationResult"]
 
@@ -266,13 +264,13 @@ class ValidationResult:
         """The same as `print`, as plain text."""
         return plain_text(self.print, width, max_regimes=None)
 
-    def print(self, console: Console, max_regimes: int | None = MAX_REGIMES) -> None:
+    def print(self, console: Terminal, max_regimes: int | None = MAX_REGIMES) -> None:
         """The measures as a table, then the verdicts and notes, on `console`."""
         s = self.settings
         console.print(f"[bold]Held-out validation[/bold]: {len(self.regimes)} regimes held "
                       f"out one at a time; observed mover: adjusted p <= {s.get('alpha')} "
                       f"and shift >= {s.get('min_shift')} sd; predicted mover: score >= "
-                      f"{s.get('threshold')}", highlight=False)
+                      f"{s.get('threshold')}")
         shown = self.regimes if max_regimes is None else self.regimes[:max_regimes]
         names = {r.regime for r in shown}
         t = Table(title="Predicted against observed movers"
@@ -292,12 +290,11 @@ class ValidationResult:
                       str(p.true_positives), _f(p.precision), _f(p.recall), _f(p.auc))
         console.print(t)
         console.print("graph: learned without the regime; observational: learned from the "
-                      "reference alone; correlation: |corr| with a target in the reference",
-                      highlight=False)
+                      "reference alone; correlation: |corr| with a target in the reference")
         for v in self.verdicts:
-            console.print(escape(v), highlight=False)
+            console.print(escape(v))
         for n in self.notes:
-            console.print(f"[yellow]note[/yellow]: {escape(n)}", highlight=False)
+            console.print(f"[yellow]note[/yellow]: {escape(n)}")
 
     def html_section(self) -> str:
         """The report section: verdicts, the measures, the movers of each regime."""
