@@ -118,3 +118,17 @@ def test_version_is_that_of_the_installed_package(capsys):
         cli.main(["--version"])
     assert exc.value.code == 0
     assert capsys.readouterr().out.strip() == f"orienteer {version('orienteer')}"
+
+
+def test_a_reader_that_leaves_early_ends_the_command_quietly(tmp_path):
+    # `orienteer ... | head -1`: the pipe closes before the tables are written; the
+    # command stops with 141 (128 + SIGPIPE, as a shell reports it; common practice)
+    # and reports no internal fault
+    proc = subprocess.Popen([sys.executable, "-m", "pipeline", "simulate", "--out",
+                             str(tmp_path / "s"), "--nodes", "5", "--samples", "20"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    assert proc.wait(timeout=60) == 141
+    assert "internal fault" not in err
+    assert (tmp_path / "s" / "data.csv").is_file()  # the files were written first
