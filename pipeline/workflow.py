@@ -3,10 +3,13 @@
 `learn` is the Python face of ``orienteer learn``. It validates its arguments once,
 then:
 
-1. fingerprints the raw input bytes and the options that change the statistics;
+1. fingerprints the raw input bytes and the options that change the statistics (with an
+   output folder, an input file unchanged since its digest was kept there is not read:
+   `pipeline.stats.fingerprint`);
 2. with an output folder, opens ``tests.sqlite`` there; if the store holds the
    statistics of that fingerprint, it takes them from there and parses no data file,
-   else it reads the inputs (`pipeline.intake.read.read_inputs`) and stores them;
+   else it reads the inputs (`pipeline.intake.read.read_inputs`) and stores them; the
+   digests of the files it hashed are kept there too;
 3. checks the inputs from the statistics (`pipeline.analyses.check.check_intake`);
 4. runs the learner (`pipeline.learner.pc.learn_graph`) with the Gaussian tester behind
    the store, so that only tests never run before are computed;
@@ -40,6 +43,7 @@ from pipeline.options import (
     check_regimes_path,
     split_names,
 )
+from pipeline.stats.fingerprint import STORE_NAME
 from pipeline.stats.moments import Moments
 
 if TYPE_CHECKING:  # imported where a result is made: the output layer pulls in pandas
@@ -48,9 +52,6 @@ if TYPE_CHECKING:  # imported where a result is made: the output layer pulls in 
 
 __all__ = ["learn", "learn_from_moments", "TARGET_MODES", "TESTS", "COLLIDER_RULES",
            "STORE_NAME"]
-
-#: The store's file name in the output folder.
-STORE_NAME = "tests.sqlite"
 
 ProgressArg = bool | Callable[[str, int, int], None] | None
 
@@ -154,7 +155,7 @@ def learn(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                    drop_missing=bool(drop_missing), reference=reference, test=test,
                    decimal=reading.decimal, regime_from=reading.regime_from,
                    sheet=reading.sheet, genes=reading.genes)
-    fingerprint = fingerprint_inputs(paths, regimes_path, **options)
+    fingerprint = fingerprint_inputs(paths, regimes_path, out=out, **options)
 
     # 2. statistics from the store, or read once and stored (the store file is created
     #    only once the inputs have been read without error: no partial output)
@@ -206,7 +207,9 @@ def inputs_through_store(paths: list[Path], regimes_path: Path, out: str | Path 
     `fingerprint`, else read from the files (and kept in the store when `out` is given).
 
     `before_store` is called with the intake before a new store file is created, so a
-    check that fails leaves no file behind. Returns ``(intake, store, from_store,
+    check that fails leaves no file behind. The digest records of the input files hashed
+    in this process are kept in the store (`pipeline.stats.fingerprint.digest_records`).
+    Returns ``(intake, store, from_store,
     notice)``; the caller closes `store` (None without `out`); `notice` is one line when
     the last run in `out` read other inputs.
     """
@@ -223,6 +226,7 @@ def inputs_through_store(paths: list[Path], regimes_path: Path, out: str | Path 
                             list(stored.warnings))
             if before_store is not None:
                 before_store(intake)
+            _keep_digests(store, [*paths, regimes_path])
             return intake, store, True, None
         from pipeline.intake.read import read_inputs
         from pipeline.progress import Progress
@@ -236,11 +240,20 @@ def inputs_through_store(paths: list[Path], regimes_path: Path, out: str | Path 
             store = store or TestStore(store_path)
             store.put_inputs(fingerprint, intake.design, intake.moments, intake.warnings,
                              intake.dropped_rows)
+            _keep_digests(store, [*paths, regimes_path])
         return intake, store, False, notice
     except BaseException:
         if store is not None:
             store.close()
         raise
+
+
+def _keep_digests(store, paths: list[Path]) -> None:
+    """Keep in `store` the digest records of `paths` hashed in this process, so that a
+    rerun into the same folder reads no unchanged file again."""
+    from pipeline.stats.fingerprint import digest_records
+
+    store.put_digests(digest_records(paths))
 
 
 def _changed_inputs(store, fingerprint: str, out) -> str | None:

@@ -287,3 +287,16 @@ def test_large_indices_match_exactly(tmp_path):
     for i in range(100):
         key = (int(x[100 + i]), int(y[100 + i]), tuple(cond[100 + i].tolist()))
         assert again.statistic[i] == ref[key]
+
+
+def test_digest_records_replace_by_path(tmp_path):
+    row = ("/data/a.csv", 1, 2, 3, 4, 5, "ab" * 32, 6)
+    newer = ("/data/a.csv", 1, 9, 3, 4, 7, "cd" * 32, 8)
+    other = ("/data/b.csv", 1, 3, 3, 4, 5, "ef" * 32, 6)
+    with TestStore(tmp_path / "tests.sqlite") as store:
+        assert store.put_digests([row, other]) and store.put_digests([newer])
+        assert store.put_digests([])
+    # read back by SQLite itself: one record per path, the latest
+    con = sqlite3.connect(tmp_path / "tests.sqlite")
+    assert con.execute("SELECT * FROM digests ORDER BY path").fetchall() == [newer, other]
+    con.close()

@@ -469,7 +469,7 @@ def validate(data: str | Path | Sequence[str | Path], regimes: str | Path, *,
                    drop_missing=bool(drop_missing), reference=reference, test=test,
                    decimal=reading.decimal, regime_from=reading.regime_from,
                    sheet=reading.sheet, genes=reading.genes)
-    fingerprint = fingerprint_inputs(paths, regimes_path, **options)
+    fingerprint = fingerprint_inputs(paths, regimes_path, out=out, **options)
     # the held-out regimes are checked before any file is created
     intake, store, _, _ = inputs_through_store(
         paths, regimes_path, out, fingerprint, options, progress,

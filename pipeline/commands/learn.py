@@ -68,7 +68,7 @@ def run(args: argparse.Namespace) -> int:
     _check_unsupported(args)
     from pipeline.stats.fingerprint import hash_in_background
 
-    hash_in_background([*inputs.data, inputs.regimes])  # meanwhile: the imports below
+    hash_in_background([*inputs.data, inputs.regimes], out=args.out)  # meanwhile: imports
     from pipeline.progress import Progress
     from pipeline.terminal import Terminal
     from pipeline.workflow import learn

@@ -11,7 +11,11 @@ fingerprint of the inputs and of the options that change the statistics:
   run before;
 - named arrays that do not depend on alpha (the numbers of the input check: response
   matrix, control agreement, neighbour p-values, target tests), so that a rerun applies
-  its alpha to them without computing them again (`pipeline.independence.numbers`).
+  its alpha to them without computing them again (`pipeline.independence.numbers`);
+- apart from any fingerprint, the digest record of every input file hashed for this
+  folder (table ``digests``: stat fields, SHA-256, when the hashing began), so that a
+  rerun hashes no unchanged file again (`pipeline.stats.fingerprint`, which reads them
+  without this module).
 
 A different fingerprint never reuses an entry. The file is opened in write-ahead-log
 mode with a busy timeout, so that two runs writing one store at once wait for each other
@@ -94,6 +98,16 @@ CREATE TABLE IF NOT EXISTS numbers (
     field       TEXT NOT NULL,
     value       BLOB NOT NULL,
     PRIMARY KEY (fid, name, field)
+) WITHOUT ROWID;
+CREATE TABLE IF NOT EXISTS digests (
+    path        TEXT PRIMARY KEY,
+    dev         INTEGER NOT NULL,
+    ino         INTEGER NOT NULL,
+    size        INTEGER NOT NULL,
+    mtime_ns    INTEGER NOT NULL,
+    ctime_ns    INTEGER NOT NULL,
+    sha256      TEXT NOT NULL,
+    hashed_ns   INTEGER NOT NULL
 ) WITHOUT ROWID;
 CREATE TABLE IF NOT EXISTS runs (
     id          INTEGER PRIMARY KEY AUTOINCREMENT,
@@ -244,6 +258,35 @@ class TestStore:
         """Every input fingerprint held, oldest first."""
         return [r[0] for r in self._con.execute(
             "SELECT fingerprint FROM inputs ORDER BY created, fingerprint")]
+
+    # -- digests of input files ---------------------------------------------------------------
+    def put_digests(self, rows: Iterable[tuple]) -> bool:
+        """Keep digest records ``(path, dev, ino, size, mtime_ns, ctime_ns, sha256,
+        hashed_ns)`` in one transaction, each replacing the record of its path (rows as
+        `pipeline.stats.fingerprint.digest_records` gives them).
+
+        A cache only: returns False, keeping nothing, when the table cannot take them (a
+        store whose ``digests`` table is damaged or of another shape).
+        """
+        rows = list(rows)
+        if not rows:
+            return True
+        try:
+            self._write(lambda c: c.executemany(
+                "INSERT OR REPLACE INTO digests (path, dev, ino, size, mtime_ns, ctime_ns, "
+                "sha256, hashed_ns) VALUES (?,?,?,?,?,?,?,?)", rows))
+        except sqlite3.DatabaseError:
+            return False
+        return True
+
+    def digests(self) -> list[tuple]:
+        """Every digest record kept, by path (empty when the table cannot be read)."""
+        try:
+            return self._con.execute(
+                "SELECT path, dev, ino, size, mtime_ns, ctime_ns, sha256, hashed_ns "
+                "FROM digests ORDER BY path").fetchall()
+        except sqlite3.DatabaseError:
+            return []
 
     # -- runs -------------------------------------------------------------------------------
     def log_run(self, fingerprint: str, settings: dict[str, Any], computed: int,
