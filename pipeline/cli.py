@@ -30,8 +30,12 @@ def _command_module(name: str):
     return importlib.import_module(f"pipeline.commands.{name}")
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """Return the full argument parser with one sub-parser per available command."""
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """Return the argument parser with one sub-parser per available command.
+
+    With `only` (a command name), only that command's sub-parser gets its options: the
+    others are listed by ``--help`` but not built (a command line names one command).
+    """
     parser = argparse.ArgumentParser(
         prog="orienteer",
         description="Orient the edges of a causal graph from control and perturbation experiments.",
@@ -47,6 +51,8 @@ def build_parser() -> argparse.ArgumentParser:
                 continue  # not built yet
             raise
         p = sub.add_parser(name, help=module.HELP, description=module.HELP)
+        if only is not None and name != only:
+            continue
         module.add_arguments(p)
         p.add_argument("--config", metavar="FILE",
                        help="TOML file of option values (keys are option names with _ for -); "
@@ -111,7 +117,7 @@ def _crash_log(exc: BaseException) -> Path:
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code (0 done, 1 internal fault, 2 input error)."""
     argv = list(sys.argv[1:] if argv is None else argv)
-    parser = build_parser()
+    parser = build_parser(argv[0] if argv and argv[0] in COMMANDS else None)
     args = parser.parse_args(argv)  # argparse itself exits 2 on a bad command line
     debug = bool(getattr(args, "debug", False))
     from pipeline.provenance import running_command
