@@ -1,5 +1,5 @@
 """``python -m pipeline`` runs the ``orienteer`` command line."""
 
-from pipeline.cli import main
+from pipeline.cli import entry
 
-raise SystemExit(main())
+entry()

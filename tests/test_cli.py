@@ -132,3 +132,21 @@ def test_a_reader_that_leaves_early_ends_the_command_quietly(tmp_path):
     assert proc.wait(timeout=60) == 141
     assert "internal fault" not in err
     assert (tmp_path / "s" / "data.csv").is_file()  # the files were written first
+
+
+def test_the_program_leaves_a_closed_store_and_the_exit_code_of_main(tmp_path):
+    # `python -m pipeline` runs `entry`: it freezes the collector's objects before the
+    # interpreter exits; the store must still be closed (SQLite's write-ahead log merged
+    # back and removed, as SQLite does on the last close) and the exit codes unchanged
+    from pipeline.simulation import simulate
+
+    simulate(nodes=5, regimes=2, samples=200, seed=1).save(tmp_path / "d")
+    words = [sys.executable, "-m", "pipeline", "learn", str(tmp_path / "d" / "data.csv"),
+             "--regimes", str(tmp_path / "d" / "regimes.csv"), "--out", str(tmp_path / "o")]
+    for alpha in ("0.01", "0.001"):
+        done = subprocess.run(words + ["--alpha", alpha], capture_output=True, text=True)
+        assert done.returncode == 0, done.stderr
+        assert sorted(p.name for p in (tmp_path / "o").glob("tests.sqlite*")) == ["tests.sqlite"]
+    bad = subprocess.run(words[:5] + ["--regimes", str(tmp_path / "none.csv"), "--out",
+                                      str(tmp_path / "o")], capture_output=True, text=True)
+    assert bad.returncode == 2 and bad.stderr.startswith("error:")
