@@ -30,29 +30,49 @@ def _command_module(name: str):
     return importlib.import_module(f"pipeline.commands.{name}")
 
 
+class _HelpFormatter(argparse.HelpFormatter):
+    """argparse's help layout, fitted to the window as argparse does (``COLUMNS``, else the
+    terminal's width) without importing `shutil` (and the archive libraries it loads)."""
+
+    def __init__(self, prog: str, **kwargs) -> None:
+        if kwargs.get("width") is None:
+            kwargs["width"] = _columns() - 2
+        super().__init__(prog, **kwargs)
+
+
+def _columns() -> int:
+    columns = os.environ.get("COLUMNS", "")
+    if columns.isdigit() and int(columns) > 0:
+        return int(columns)
+    try:
+        return os.get_terminal_size(sys.__stdout__.fileno()).columns
+    except (AttributeError, ValueError, OSError):
+        return 80
+
+
 def build_parser(only: str | None = None) -> argparse.ArgumentParser:
     """Return the argument parser with one sub-parser per available command.
 
-    With `only` (a command name), only that command's sub-parser gets its options: the
-    others are listed by ``--help`` but not built (a command line names one command).
+    With `only` (a command name), the parser knows that command alone: a command line
+    names one command, and building the others' sub-parsers costs a command's start.
     """
     parser = argparse.ArgumentParser(
         prog="orienteer",
         description="Orient the edges of a causal graph from control and perturbation experiments.",
+        formatter_class=_HelpFormatter,
     )
     parser.add_argument("--version", action="version", version=f"orienteer {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
-    for name in COMMANDS:
+    for name in COMMANDS if only is None else (only,):
         try:
             module = _command_module(name)
         except ModuleNotFoundError as exc:
             if exc.name == f"pipeline.commands.{name}":
                 continue  # not built yet
             raise
-        p = sub.add_parser(name, help=module.HELP, description=module.HELP)
-        if only is not None and name != only:
-            continue
+        p = sub.add_parser(name, help=module.HELP, description=module.HELP,
+                           formatter_class=_HelpFormatter)
         module.add_arguments(p)
         p.add_argument("--config", metavar="FILE",
                        help="TOML file of option values (keys are option names with _ for -); "
