@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 
 from pipeline.graphs.pdag import InterventionNode
+from pipeline.records import record
 
 __all__ = ["Regime", "Design"]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Regime:
     """One experimental condition.
 
@@ -25,7 +26,7 @@ class Regime:
     samples: int = 0
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Design:
     """Variables (in data column order) and regimes (in regimes-file order)."""
 

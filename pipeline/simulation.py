@@ -43,7 +43,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 from pathlib import Path
 
 import networkx as nx
@@ -55,6 +55,7 @@ import pyarrow.csv as pa_csv
 from pipeline.errors import InputError
 from pipeline.fileio import atomic_write, write_text
 from pipeline.options import SIMULATION_KINDS
+from pipeline.records import record
 
 __all__ = ["KINDS", "LinearSEM", "Simulation", "simulate", "random_sem"]
 
@@ -69,7 +70,7 @@ KNOCKDOWN_FRACTION = 0.7
 DECIMALS = 5
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class LinearSEM:
     """A linear Gaussian structural equation model ``X = c + B X + E``.
 
@@ -179,7 +180,7 @@ class LinearSEM:
         return g
 
 
-@dataclass
+@record
 class Simulation:
     """Simulated data with the truth behind it.
 

@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 import argparse
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from pipeline.errors import InputError
+from pipeline.records import record
 
 if TYPE_CHECKING:  # the parser is built without the numerical stack
     from pipeline.intake.reading import ReadOptions
@@ -44,7 +44,7 @@ def add_input_arguments(parser: argparse.ArgumentParser) -> None:
                              "genes of an .h5ad file)")
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class MeasurementInputs:
     """The shared input options, checked.
 

@@ -37,20 +37,20 @@ from __future__ import annotations
 
 import numbers
 from collections.abc import Hashable, Iterable
-from dataclasses import dataclass
 
 import networkx as nx
 
 from pipeline.graphs.counting import class_size
 from pipeline.graphs.pdag import PDAG
 from pipeline.graphs.sampling import enumerate_dags, sample_orientations
+from pipeline.records import record
 
 __all__ = ["DescendantFractions", "descendant_fractions", "reachability_scores"]
 
 Node = Hashable
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class DescendantFractions:
     """Descendant fractions of every node of a graph.
 

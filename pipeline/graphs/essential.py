@@ -31,12 +31,13 @@ References
 from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import TYPE_CHECKING
 
 from pipeline.graphs.augmented import augmented_graph
 from pipeline.graphs.meek import meek_closure
 from pipeline.graphs.pdag import PDAG, InterventionNode
+from pipeline.records import record
 
 if TYPE_CHECKING:  # the learner's graphs are PDAGs: networkx only where a DAG is given
     import networkx as nx
@@ -46,7 +47,7 @@ __all__ = ["EdgeReason", "EssentialGraph", "orient_pattern", "essential_graph", 
 Node = Hashable
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class EdgeReason:
     """Why a directed edge has its direction.
 
@@ -59,7 +60,7 @@ class EdgeReason:
     via: tuple[Node, ...] = ()
 
 
-@dataclass
+@record
 class EssentialGraph:
     """An (interventional) essential graph and the reasons for its directed edges."""
 

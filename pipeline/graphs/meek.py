@@ -30,16 +30,16 @@ from __future__ import annotations
 
 from collections import deque
 from collections.abc import Hashable, Iterable
-from dataclasses import dataclass
 
 from pipeline.graphs.pdag import PDAG, InterventionNode
+from pipeline.records import record
 
 __all__ = ["Orientation", "meek_closure"]
 
 Node = Hashable
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Orientation:
     """One edge oriented by a Meek rule.
 

@@ -52,17 +52,17 @@ from __future__ import annotations
 import math
 import random
 from collections import Counter, deque
-from dataclasses import dataclass
 
 from pipeline.graphs.counting import AMOCounter
 from pipeline.graphs.sampling import _sample_order
+from pipeline.records import record
 
 __all__ = ["Outcome", "OutcomeDistribution", "ComponentOutcomes", "meek_arcs"]
 
 Arc = tuple[int, int]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Outcome:
     """One possible result of an experiment inside a component.
 
@@ -77,7 +77,7 @@ class Outcome:
     pieces: tuple[frozenset, ...]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class OutcomeDistribution:
     """The outcomes of one experiment inside one component, with their summaries.
 

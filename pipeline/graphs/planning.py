@@ -55,12 +55,13 @@ import itertools
 import math
 import random
 from collections.abc import Hashable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 
 from pipeline.graphs.counting import AMOCounter, chain_components, clique_tree
 from pipeline.graphs.outcomes import ComponentOutcomes
 from pipeline.graphs.pdag import PDAG
 from pipeline.graphs.validity import essential_graph_problems
+from pipeline.records import record
 
 __all__ = ["ExperimentScore", "PlanStep", "Plan", "LowerBounds", "Planner",
            "candidate_experiments", "plan_experiments"]
@@ -73,7 +74,7 @@ EXACT_SETS = 2000
 MAX_STATES = 2000
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class ExperimentScore:
     """The score of one experiment (its targets), given the experiments before it.
 
@@ -98,7 +99,7 @@ class ExperimentScore:
         return (-self.expected_oriented, self.expected_class_size, len(self.targets))
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class PlanStep:
     """One experiment of a plan, scored given the steps before it."""
 
@@ -110,7 +111,7 @@ class PlanStep:
         return self.score.targets
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class LowerBounds:
     """Experiments needed in the worst case to orient every edge (see the module text)."""
 
@@ -120,7 +121,7 @@ class LowerBounds:
     with_max_targets: int
 
 
-@dataclass
+@record
 class Plan:
     """Ranking of next experiments, the plan of M steps and the lower bounds."""
 
@@ -137,7 +138,7 @@ class Plan:
 
 
 
-@dataclass
+@record
 class _States:
     """A component's possible states after the chosen experiments: (probability, pieces).
 
@@ -149,7 +150,7 @@ class _States:
     draws: int = 0
 
 
-@dataclass
+@record
 class _Part:
     """One component's share of a score (means, standard errors, worst cases)."""
 

@@ -50,12 +50,13 @@ References
 from __future__ import annotations
 
 from collections.abc import Hashable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import TYPE_CHECKING
 
 from pipeline.graphs.essential import EssentialGraph, orient_pattern, v_structures
 from pipeline.graphs.pdag import PDAG, InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
+from pipeline.records import record
 
 if TYPE_CHECKING:  # networkx is imported where a DAG is built (a faster start)
     import networkx as nx
@@ -67,7 +68,7 @@ Node = Hashable
 Triple = tuple[Node, Node, Node]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Rejection:
     """A collider set aside, and why.
 
@@ -83,7 +84,7 @@ class Rejection:
     against: tuple = ()
 
 
-@dataclass
+@record
 class Resolution:
     """The resolved graph and what it took.
 

@@ -7,15 +7,16 @@ shape ``(m, l)`` (``l`` may be 0).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Protocol
 
 import numpy as np
 
+from pipeline.records import record
+
 __all__ = ["TestResults", "Tester"]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class TestResults:
     """Statistics and two-sided p-values of a batch of m tests.
 

@@ -20,12 +20,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from pipeline.independence.multiplicity import benjamini_hochberg
+from pipeline.records import record
 
 if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
     import pandas as pd
@@ -33,7 +33,7 @@ if TYPE_CHECKING:  # pandas is imported where a table is made (a faster start)
 __all__ = ["ResponseMatrix"]
 
 
-@dataclass
+@record
 class ResponseMatrix:
     """Marginal response of every variable to every non-reference regime.
 

@@ -9,10 +9,10 @@ numerical stack is loaded.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from pathlib import Path
 
 from pipeline.errors import InputError, nearest_names
+from pipeline.records import record
 
 __all__ = ["DECIMALS", "REGIME_SOURCES", "ReadOptions", "read_options", "reading_of",
            "read_genes"]
@@ -24,7 +24,7 @@ DECIMALS = (".", ",")
 REGIME_SOURCES = ("column", "filename")
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class ReadOptions:
     """How to read the measurement files (each option changes the statistics).
 

@@ -6,15 +6,16 @@ from the store builds it without importing the file readers.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 
 from pipeline.design import Design
+from pipeline.records import record
 from pipeline.stats.moments import Moments
 
 __all__ = ["Intake"]
 
 
-@dataclass
+@record
 class Intake:
     """What the intake read: design, per-regime statistics, fingerprint, notes.
 

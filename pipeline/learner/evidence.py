@@ -20,11 +20,12 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import Any
 
 from pipeline.graphs.essential import EssentialGraph
 from pipeline.graphs.pdag import PDAG, InterventionNode
+from pipeline.records import record
 
 __all__ = ["RemovedPair", "KeptPair", "TargetFinding", "Conflict", "ColliderEvidence",
            "ChainEvidence", "Learned", "strength_of"]
@@ -48,7 +49,7 @@ def strength_of(p: float | None) -> float:
     return min(MAX_STRENGTH, max(0.0, -math.log10(min(1.0, float(p)))))
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class RemovedPair:
     """A pair found non-adjacent, with the test that separated it.
 
@@ -68,7 +69,7 @@ class RemovedPair:
     regime: str | None = None
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class KeptPair:
     """An adjacency that survived every test: `max_pvalue` is the largest p of them.
 
@@ -82,7 +83,7 @@ class KeptPair:
     regime: str | None = None
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class TargetFinding:
     """What the learner concluded about regime `regime` acting on `variable`.
 
@@ -101,7 +102,7 @@ class TargetFinding:
     separating_set: tuple[str, ...] = ()
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Conflict:
     """An edge on which decisions of the learner disagree, and how it was settled.
 
@@ -118,7 +119,7 @@ class Conflict:
     reasons: tuple[str, ...] = ()
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class ColliderEvidence:
     """The tests behind a collider ``a -> c <- b`` (``b`` may be an intervention node).
 
@@ -152,7 +153,7 @@ class ColliderEvidence:
         return strength_of(self.weakest_p)
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class ChainEvidence:
     """The tests behind ``x -> y`` when an experiment on `x` reaches `y` through `x`.
 
@@ -169,7 +170,7 @@ class ChainEvidence:
     p_dependence: float | None
 
 
-@dataclass
+@record
 class Learned:
     """The learned interventional essential graph with the evidence of every decision.
 

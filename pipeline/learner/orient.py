@@ -50,7 +50,7 @@ References
 from __future__ import annotations
 
 from collections.abc import Hashable
-from dataclasses import dataclass, field
+from dataclasses import field
 from itertools import combinations
 
 import numpy as np
@@ -62,6 +62,7 @@ from pipeline.learner.evidence import ColliderEvidence
 from pipeline.learner.skeleton import Progress, Skeleton, run_batched, subsets_up_to
 from pipeline.learner.targets import TargetSearch
 from pipeline.options import COLLIDER_RULES
+from pipeline.records import record
 
 __all__ = ["COLLIDER_RULES", "ColliderSearch", "augmented_skeleton", "find_colliders"]
 
@@ -69,7 +70,7 @@ __all__ = ["COLLIDER_RULES", "ColliderSearch", "augmented_skeleton", "find_colli
 Node = Hashable
 
 
-@dataclass
+@record
 class ColliderSearch:
     """The decision on every unshielded triple, in graph-node terms.
 

@@ -43,12 +43,13 @@ References
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 from itertools import chain, combinations
 
 import numpy as np
 
 from pipeline.independence.base import Tester, TestResults
+from pipeline.records import record
 
 __all__ = ["Separation", "Skeleton", "learn_skeleton"]
 
@@ -57,7 +58,7 @@ Progress = Callable[[str, int, int], None]
 CHUNK = 200_000  # tests per call to the tester
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Separation:
     """The test that separated a pair: conditioning set (variable positions) and result."""
 
@@ -71,7 +72,7 @@ class Separation:
         return len(self.cond)
 
 
-@dataclass
+@record
 class Skeleton:
     """Adjacencies among measured variables, with the evidence of each decision.
 

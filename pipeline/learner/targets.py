@@ -37,7 +37,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 from itertools import combinations
 
 import numpy as np
@@ -53,11 +53,12 @@ from pipeline.learner.skeleton import (
     left_out_notes,
     run_batched,
 )
+from pipeline.records import record
 
 __all__ = ["TargetSearch", "TargetVerdict", "learn_targets", "verify_declared_targets"]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class TargetVerdict:
     """Did regime `regime` act on its declared target `target`?
 
@@ -131,7 +132,7 @@ def verify_declared_targets(tester: Tester, design: Design, adjacency: np.ndarra
     return out
 
 
-@dataclass
+@record
 class TargetSearch:
     """Adjacencies of every intervention node, with the evidence.
 

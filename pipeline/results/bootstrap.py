@@ -13,7 +13,7 @@ from __future__ import annotations
 import html
 import io
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.records import record
 
 __all__ = ["BootstrapResult", "COLUMNS"]
 
@@ -35,7 +36,7 @@ def _edge_text(source: str, target: str, orientation: str) -> str:
     return f"{source} {'->' if orientation == 'directed' else '--'} {target}"
 
 
-@dataclass
+@record
 class BootstrapResult:
     """Adjacency and orientation frequencies over B bootstrap resamples.
 

@@ -9,7 +9,7 @@ computation is `pipeline.analyses.check`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -18,6 +18,7 @@ import numpy as np
 from pipeline.design import Design, Regime
 from pipeline.errors import InputError
 from pipeline.independence.response import ResponseMatrix
+from pipeline.records import record
 from pipeline.results.formatting import (
     finite_or_none,
     format_p,
@@ -40,7 +41,7 @@ MOVED, MOVED_GIVEN, NOT_MOVED = "moved", "moved given its neighbours", "did not 
 MAX_COLUMNS = 60
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class TargetCheck:
     """Did the intervention of `regime` move its declared `target`?
 
@@ -82,7 +83,7 @@ class TargetCheck:
                    given=tuple(d.get("given", ())))
 
 
-@dataclass
+@record
 class ControlAgreement:
     """Each control regime against the pooled other controls, variable by variable.
 
@@ -132,7 +133,7 @@ class ControlAgreement:
         })
 
 
-@dataclass
+@record
 class DistributionShape:
     """Within-regime skewness and excess kurtosis of every variable (pooled over regimes).
 
@@ -151,7 +152,7 @@ class DistributionShape:
                 "far_from_gaussian": list(self.far)}
 
 
-@dataclass
+@record
 class CheckResult:
     """What `check` found. Carries every number; `print` and `summary` show them.
 

@@ -38,8 +38,8 @@ import html
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
 
+from pipeline.records import record
 from pipeline.results.layout import Layout, Style, components, layered_layout, short_label
 from pipeline.results.schema import EdgeRecord
 
@@ -243,7 +243,7 @@ def _isolated_rows(isolated: list[str], style: Style, total_w: int, y: float
     return out, y + style.box_h / 2
 
 
-@dataclass
+@record
 class Geometry:
     """Where every mark of the drawing goes (pixels, y downwards); the SVG and the PNG
     (`pipeline.results.picture`) are both drawn from it.

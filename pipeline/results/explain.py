@@ -34,11 +34,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import Any
 
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.learner.evidence import ColliderEvidence, Learned, strength_of
+from pipeline.records import record
 from pipeline.results.formatting import format_p
 
 __all__ = ["Explanation", "explain_edges", "MAX_CHAIN"]
@@ -47,7 +48,7 @@ __all__ = ["Explanation", "explain_edges", "MAX_CHAIN"]
 MAX_CHAIN = 12
 
 
-@dataclass
+@record
 class Explanation:
     """The evidence of one edge: `strength` (None when undirected), `chain`, `sentence`."""
 

@@ -8,12 +8,13 @@ without test evidence). The computation is `pipeline.analyses.identify`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 
 from pipeline.design import Design
 from pipeline.graphs.essential import EssentialGraph
 from pipeline.graphs.pdag import InterventionNode
 from pipeline.graphs.validity import essential_graph_problems
+from pipeline.records import record
 from pipeline.results.formatting import format_count
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.terminal import Table, Terminal, escape, plain_text
@@ -24,7 +25,7 @@ __all__ = ["IdentifyResult"]
 MAX_EDGE_ROWS = 40
 
 
-@dataclass
+@record
 class IdentifyResult:
     """The essential graph a design identifies, with per-regime figures."""
 

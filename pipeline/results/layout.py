@@ -20,10 +20,11 @@ References
 from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field
+from dataclasses import field
 
 import numpy as np
 
+from pipeline.records import record
 from pipeline.results.schema import EdgeRecord
 
 __all__ = ["Style", "Layout", "short_label", "components", "layered_layout"]
@@ -33,7 +34,7 @@ _PLACE_PASSES = 6  # passes of the horizontal placement
 _FILL = 0.75  # share of a layer's width for nodes; the rest is for edges passing through
 _MAX_LABEL = 18  # characters of a node label; the full name is in the tooltip
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Style:
     font: int
     box_h: int
@@ -47,7 +48,7 @@ class Style:
         return max(0.62 * self.font * len(label) + self.font * 1.2, self.box_h * 1.6)
 
 
-@dataclass
+@record
 class Layout:
     """Layers of items (real nodes are str, dummy points are int) and their x."""
 

@@ -9,7 +9,7 @@ networkx (``.to_networkx()``), and ``.save(folder)`` writes the result files
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 from pipeline.design import Design
 from pipeline.graphs.pdag import PDAG
 from pipeline.learner.evidence import Learned
+from pipeline.records import record
 from pipeline.results.formatting import format_count, format_p
 from pipeline.results.schema import EdgeRecord, RegimeRecord, ResultRecord
 from pipeline.results.tables import edge_records, edges_frame, removed_frame
@@ -36,7 +37,7 @@ def _share(v: float | None) -> str:
     return "-" if v is None else f"{v:.2f}"
 
 
-@dataclass
+@record
 class LearnResult:
     """A learned interventional essential graph with the evidence of each decision.
 

@@ -13,11 +13,12 @@ itself (`print`, `summary`), converts to ``plan.json`` (`to_dict`, format
 from __future__ import annotations
 
 import html
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, field
 from pathlib import Path
 from typing import Any
 
 from pipeline.errors import InputError
+from pipeline.records import record
 from pipeline.results.formatting import finite_or_none, format_count
 from pipeline.terminal import Table, Terminal, escape, plain_text
 
@@ -32,7 +33,7 @@ ASSUMPTION = ("Averages are over the DAGs of the class, each taken as equally li
               "of the reference condition, and its intervention node points at them.")
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class RankedExperiment:
     """One candidate experiment and its score (see `pipeline.graphs.planning`)."""
 
@@ -56,7 +57,7 @@ class RankedExperiment:
         return d
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class PlannedStep:
     """One step of the plan: its gain given the steps before, the class left after it."""
 
@@ -79,7 +80,7 @@ class PlannedStep:
         return d
 
 
-@dataclass
+@record
 class PlanResult:
     """Ranking, plan and lower bounds for the next experiments on a result's class."""
 

@@ -7,12 +7,13 @@ The field names are the outside contract (CONTRACT.md); add fields, never rename
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 from pathlib import Path
 from typing import Any
 
 from pipeline.errors import InputError
 from pipeline.graphs.pdag import PDAG
+from pipeline.records import record
 
 __all__ = ["FORMAT", "EdgeRecord", "RegimeRecord", "ResultRecord"]
 
@@ -26,7 +27,7 @@ def _shallow(record: Any) -> dict[str, Any]:
     return {k: list(v) if isinstance(v, list) else v for k, v in vars(record).items()}
 
 
-@dataclass
+@record
 class EdgeRecord:
     """One edge of the result. For an undirected edge `source` comes first in ``nodes``.
 
@@ -55,7 +56,7 @@ class EdgeRecord:
     chain: list[dict[str, Any]] = field(default_factory=list)
 
 
-@dataclass
+@record
 class RegimeRecord:
     name: str
     targets: list[str]
@@ -65,7 +66,7 @@ class RegimeRecord:
     detected_targets: list[str] = field(default_factory=list)
 
 
-@dataclass
+@record
 class ResultRecord:
     """The whole ``result.json``."""
 

@@ -9,15 +9,16 @@ computation is `pipeline.analyses.scoring`.
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
+from dataclasses import asdict
 from typing import Any
 
+from pipeline.records import record
 from pipeline.terminal import Table, Terminal, escape, plain_text
 
 __all__ = ["Scores", "Comparison"]
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Scores:
     """How close a learned graph is to the truth.
 
@@ -78,7 +79,7 @@ class Scores:
         console.print(t)
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Comparison:
     """A result scored against fixed references.
 

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import html
 import io
-from dataclasses import dataclass, field
+from dataclasses import field
 from pathlib import Path
 from typing import Any
 
@@ -24,6 +24,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.records import record
 from pipeline.terminal import plain_text
 
 __all__ = ["SweepResult", "FORMAT", "CSV_COLUMNS", "STABLE", "VARIES"]
@@ -40,7 +41,7 @@ _FORWARD, _BACKWARD, _UNDIRECTED = 1, -1, 0
 _SYMBOL = {_FORWARD: "\u2192", _BACKWARD: "\u2190", _UNDIRECTED: "\u2014", None: "\u00b7"}
 
 
-@dataclass
+@record
 class SweepResult:
     """The learner of one run folder at several significance levels.
 

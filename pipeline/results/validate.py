@@ -15,7 +15,7 @@ from __future__ import annotations
 import html
 import json
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, field
 from pathlib import Path
 from typing import Any
 
@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 
 from pipeline.errors import InputError
+from pipeline.records import record
 from pipeline.results.formatting import finite_or_none, format_count
 from pipeline.terminal import Table, Terminal, escape, plain_text
 
@@ -55,7 +56,7 @@ DEFINITIONS = (
     "non-mover (0.5 is guessing). The targets are not scored.")
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class Prediction:
     """The measures of one predictor on one held-out regime (or all pooled).
 
@@ -77,7 +78,7 @@ class Prediction:
     auc: float | None
 
 
-@dataclass
+@record
 class HeldOutRegime:
     """One held-out regime: its targets, the scored variables and every number per variable.
 
@@ -135,7 +136,7 @@ class HeldOutRegime:
         return [v for v, m in zip(self.variables, mask, strict=True) if m]
 
 
-@dataclass
+@record
 class ValidationResult:
     """Held-out validation of a learned graph against two baselines.
 

@@ -16,9 +16,9 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
+
+from pipeline.records import record
 
 __all__ = ["Moments", "merge_moments", "merge_tails"]
 
@@ -65,7 +65,7 @@ def merge_tails(n_a: int, mean_a: np.ndarray, m2_a: np.ndarray, m3_a: np.ndarray
     return m3, m4
 
 
-@dataclass
+@record
 class Moments:
     """Sufficient statistics of K regimes over p variables.
 

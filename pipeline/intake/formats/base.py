@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Protocol
 
@@ -28,6 +27,7 @@ import pandas as pd
 
 from pipeline.errors import InputError
 from pipeline.intake.reading import DECIMALS, REGIME_SOURCES, ReadOptions
+from pipeline.records import record
 
 __all__ = ["NA_STRINGS", "DECIMALS", "REGIME_SOURCES", "ReadOptions", "TableHeader", "Chunk",
            "Reader", "encode_labels", "labels_of", "numeric_block", "cell_text"]
@@ -41,7 +41,7 @@ NA_STRINGS = ("", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-na
 _DECIMAL_COMMA = re.compile(r"^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$")
 
 
-@dataclass(frozen=True)
+@record(frozen=True)
 class TableHeader:
     """A data file and the names of its columns, in file order.
 
@@ -62,7 +62,7 @@ class TableHeader:
     rows: int | None = None
 
 
-@dataclass
+@record
 class Chunk:
     """Consecutive rows of one file.
 
