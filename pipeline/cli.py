@@ -45,9 +45,10 @@ def _columns() -> int:
     if columns.isdigit() and int(columns) > 0:
         return int(columns)
     try:
-        return os.get_terminal_size(sys.__stdout__.fileno()).columns
+        columns = os.get_terminal_size(sys.__stdout__.fileno()).columns
     except (AttributeError, ValueError, OSError):
-        return 80
+        columns = 0
+    return columns if columns > 0 else 80  # 0: a terminal of unknown size
 
 
 def build_parser(only: str | None = None) -> argparse.ArgumentParser:

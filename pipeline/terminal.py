@@ -296,9 +296,11 @@ class Terminal:
             return int(columns)
         if self._tty:
             try:
-                return os.get_terminal_size(self.file.fileno()).columns
+                columns = os.get_terminal_size(self.file.fileno()).columns
             except (OSError, ValueError, AttributeError):
-                pass
+                columns = 0
+            if columns > 0:  # a terminal of unknown size says 0 (as under `script`)
+                return max(columns, 20)
         return 80
 
     def print(self, *items: str | Table, wrap: bool = True) -> None:

@@ -8,6 +8,7 @@ and the ``NO_COLOR`` convention (no colour when the variable is set; common prac
 from __future__ import annotations
 
 import io
+import os
 import textwrap
 
 import pytest
@@ -166,3 +167,19 @@ def test_a_bullet_continues_under_its_text_with_its_styles():
                                   .replace("\x1b[0m", "")).plain.strip() for line in lines)
     assert plain == ("- regime kd_a: declared target A moved neither marginally nor given "
                      "its neighbours")
+
+
+def test_a_terminal_of_unknown_size_gets_80_columns(monkeypatch):
+    # a terminal without a window size (as under `script`) reports 0 columns
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+        def fileno(self):
+            return 1
+
+    monkeypatch.delenv("COLUMNS", raising=False)
+    monkeypatch.setattr("os.get_terminal_size", lambda fd: os.terminal_size((0, 0)))
+    assert Terminal(Tty()).width == 80
+    monkeypatch.setattr("os.get_terminal_size", lambda fd: os.terminal_size((132, 40)))
+    assert Terminal(Tty()).width == 132
