@@ -8,7 +8,9 @@ start-up and imports included, median of several runs:
 2. ``orienteer learn`` on a 132,000-row, 30-variable CSV file (simulated: a control and
    21 single-target knockdowns of 6,000 rows), cold into a fresh folder, then again into
    the same folder at a new alpha (statistics and earlier tests from ``tests.sqlite``;
-   goal: at least 5 times faster than the cold run).
+   goal: at least 5 times faster than the cold run);
+3. the same rerun on a terminal, through util-linux ``script`` when it is installed (progress
+   bars and colours are on; ``script`` itself adds a few milliseconds).
 
 The package's bytecode is compiled first (``compileall``), as installing a package does,
 so that no timed process compiles the package's sources; ``--no-bytecode`` times a checkout
@@ -29,6 +31,7 @@ import argparse
 import compileall
 import datetime
 import os
+import shlex
 import shutil
 import statistics
 import subprocess
@@ -53,6 +56,19 @@ def wall(args: list[str]) -> float:
     started = time.perf_counter()
     subprocess.run(ORIENTEER + args, check=True, stdout=subprocess.DEVNULL,
                    stderr=subprocess.DEVNULL, env=ENV)
+    return time.perf_counter() - started
+
+
+def wall_on_terminal(args: list[str]) -> float:
+    """Seconds of one ``orienteer`` process on a pseudo-terminal (util-linux ``script``)."""
+    return wall_on_terminal_of(ORIENTEER + args)
+
+
+def wall_on_terminal_of(command: list[str]) -> float:
+    """Seconds of `command` run on a pseudo-terminal by ``script`` (raises if it fails)."""
+    started = time.perf_counter()
+    subprocess.run(["script", "-qec", shlex.join(command), "/dev/null"], check=True,
+                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=ENV)
     return time.perf_counter() - started
 
 
@@ -87,16 +103,25 @@ def main(argv: list[str] | None = None) -> int:
         sim.save(tmp / "data")
         data, regimes = tmp / "data" / "data.csv", tmp / "data" / "regimes.csv"
         mb = data.stat().st_size / 2**20
-        cold, rerun = [], []
+        cold, rerun, terminal = [], [], []
+        on_terminal = shutil.which("script") is not None
         for i in range(args.runs):
             out = tmp / f"out{i}"
             base = ["learn", str(data), "--regimes", str(regimes), "--out", str(out)]
             cold.append(wall(base + ["--alpha", "0.01"]))
             rerun.append(wall(base + ["--alpha", f"{0.005 / (i + 1):.6f}"]))
+            if on_terminal:
+                terminal.append(wall_on_terminal(base + ["--alpha", f"{0.004 / (i + 1):.6f}"]))
         c, r = statistics.median(cold), statistics.median(rerun)
         rows.append((f"cold `learn`, {len(sim.data):,} rows x 30 variables ({mb:.0f} MB)", c,
                      ""))
         rows.append(("rerun into the same `--out` at a new alpha", r, f"{c / r:.1f}x faster"))
+        if terminal:
+            t = statistics.median(terminal)
+            alone = statistics.median(
+                [wall_on_terminal_of(["true"]) for _ in range(args.runs)])
+            rows.append(("the same rerun on a terminal (`script`)", t,
+                         f"of which `script` itself: {alone:.3f} s"))
     when = datetime.datetime.now().strftime("%Y-%m-%d %H:%M")
     command = " ".join(["python benchmarks/bench_startup.py", *sys.argv[1:]])
     lines = [f"## bench_startup: the command line as a user times it ({when})", "",
