@@ -229,7 +229,7 @@ class Table:
     def lines(self, room: int, colour: bool) -> list[str]:
         """The table as lines of text for a window of `room` columns."""
         if not self.columns:
-            return [] if self.title is None else [self.title]
+            return [] if self.title is None else [Styled.parse(self.title).render(colour)]
         widths = self.widths(room)
         out: list[str] = []
         if self.title:
