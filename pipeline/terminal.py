@@ -32,6 +32,7 @@ B -> C   0.04
 
 from __future__ import annotations
 
+import bisect
 import io
 import os
 import re
@@ -199,13 +200,15 @@ class Table:
         Columns narrow in three stages, each as far as needed: first only headers wrap
         (to their longest word); then cells wrap between words (to the longest word of
         the column); last, words are cut (to `min_width`, at least six characters). In
-        each stage the column with the most room to give narrows first.
+        each stage the column where the fewest cells would wrap narrows first (then the one
+        with the most room to give).
         """
         rows = [r for r in self.rows if r is not None]
-        natural, stages = [], []
+        natural, stages, lengths = [], [], []
         for j, (header, _, no_wrap, least) in enumerate(self.columns):
             cells = [r[j].plain for r in rows]
-            longest_cell = max(map(len, cells), default=0)
+            lengths.append(sorted(map(len, cells)))
+            longest_cell = lengths[-1][-1] if cells else 0
             header_word = max(map(len, header.plain.split()), default=0)
             cell_word = max((len(w) for c in cells for w in c.split()), default=0)
             wide = max(len(header), longest_cell, least)
@@ -214,14 +217,19 @@ class Table:
                           [max(least, longest_cell, header_word),
                            max(least, cell_word, header_word),
                            min(wide, max(least, _NARROWEST))])
+
+        def wrapped_if_narrowed(k: int) -> int:  # cells that would no longer fit
+            return len(lengths[k]) - bisect.bisect_right(lengths[k], widths[k] - 1)
+
         widths = list(natural)
         excess = sum(widths) + _GAP * (len(widths) - 1) - room
         for stage in range(3):
             floor = [min(widths[j], stages[j][stage]) for j in range(len(widths))]
-            while excess > 0:  # the column with the most room to give, one at a time
-                j = max(range(len(widths)), key=lambda k: widths[k] - floor[k])
-                if widths[j] <= floor[j]:
+            while excess > 0:  # narrow the column where the fewest cells wrap, one at a time
+                free = [k for k in range(len(widths)) if widths[k] > floor[k]]
+                if not free:
                     break
+                j = min(free, key=lambda k: (wrapped_if_narrowed(k), floor[k] - widths[k]))
                 widths[j] -= 1
                 excess -= 1
         return widths
