@@ -154,7 +154,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
-    except BrokenPipeError:  # the reader of the output left (`| head`): stop quietly
+    except BrokenPipeError:  # output not written through a Terminal met a closed pipe
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())  # no second fault when Python flushes at exit
         return 141  # 128 + SIGPIPE, as a shell reports a writer whose reader left

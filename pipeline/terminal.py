@@ -293,6 +293,7 @@ class Terminal:
         self.colour = bool(colour)
         self._width = width if width is None else max(int(width), 10)
         self._tty = tty
+        self._gone = False
 
     @property
     def width(self) -> int:
@@ -334,15 +335,38 @@ class Terminal:
                     rest = tail.wrap(width - hang, cut=False)
                 out.append(first.render(self.colour))
                 out += [" " * hang + p.render(self.colour) for p in rest]
-        self.file.write("\n".join(out) + "\n")
-        self.file.flush()
+        self.write("\n".join(out) + "\n")
 
     def section(self, title: str) -> None:
         """A section heading: an empty line, then `title` (styled text) underlined."""
         styled = Styled.parse(title)
-        self.file.write("\n" + styled.render(self.colour) + "\n"
-                        + "=" * min(len(styled), self.width) + "\n")
-        self.file.flush()
+        self.write("\n" + styled.render(self.colour) + "\n"
+                   + "=" * min(len(styled), self.width) + "\n")
+
+    def write(self, text: str) -> None:
+        """Write `text` as it is. Once the reader of a pipe has gone (``| head``), the
+        rest of the output is dropped and the command goes on: its files are still
+        written, and it ends as it would have."""
+        if self._gone:
+            return
+        try:
+            self.file.write(text)
+            self.file.flush()
+        except BrokenPipeError:
+            self._gone = True
+            _drop_standard_output(self.file)
+
+
+def _drop_standard_output(stream: Any) -> None:
+    """When `stream` is standard output, point its descriptor at the null device, so that
+    nothing written later (nor Python's flush at exit) meets the closed pipe again."""
+    try:
+        if stream.fileno() == sys.__stdout__.fileno():
+            null = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(null, stream.fileno())
+            os.close(null)
+    except (AttributeError, ValueError, OSError):
+        pass
 
 
 def _isatty(stream: Any) -> bool:

@@ -120,18 +120,23 @@ def test_version_is_that_of_the_installed_package(capsys):
     assert capsys.readouterr().out.strip() == f"orienteer {version('orienteer')}"
 
 
-def test_a_reader_that_leaves_early_ends_the_command_quietly(tmp_path):
-    # `orienteer ... | head -1`: the pipe closes before the tables are written; the
-    # command stops with 141 (128 + SIGPIPE, as a shell reports it; common practice)
-    # and reports no internal fault
-    proc = subprocess.Popen([sys.executable, "-m", "pipeline", "simulate", "--out",
-                             str(tmp_path / "s"), "--nodes", "5", "--samples", "20"],
+def test_a_reader_that_leaves_early_loses_no_file(tmp_path):
+    # `orienteer check ... --out DIR | head -1`: the pipe closes before the tables are
+    # printed; the rest of the output is dropped, the files written after the tables are
+    # still written, and the command ends as done (exit 0), with no fault reported
+    from pipeline.simulation import simulate
+
+    simulate(nodes=5, regimes=2, samples=100, seed=2).save(tmp_path / "d")
+    proc = subprocess.Popen([sys.executable, "-m", "pipeline", "check",
+                             str(tmp_path / "d" / "data.csv"), "--regimes",
+                             str(tmp_path / "d" / "regimes.csv"), "--out", str(tmp_path / "c")],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     proc.stdout.close()
     err = proc.stderr.read().decode()
-    assert proc.wait(timeout=60) == 141
-    assert "internal fault" not in err
-    assert (tmp_path / "s" / "data.csv").is_file()  # the files were written first
+    assert proc.wait(timeout=60) == 0, err
+    assert "fault" not in err and "Error" not in err
+    assert (tmp_path / "c" / "check.json").is_file()
+    assert (tmp_path / "c" / "response.csv").is_file()
 
 
 def test_the_program_leaves_a_closed_store_and_the_exit_code_of_main(tmp_path):

@@ -57,7 +57,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         out = {"result": str(path), "truth_dag": str(args.truth_dag),
                "truth_regimes": args.truth_regimes, **comparison.to_dict()}
-        print(json.dumps(out, indent=2, allow_nan=False))
+        Terminal().write(json.dumps(out, indent=2, allow_nan=False) + "\n")
     else:
         comparison.print(Terminal(), title=f"{path} against {args.truth_dag}")
     return 0
