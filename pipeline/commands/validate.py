@@ -54,6 +54,9 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--holdout: empty; name regimes (R1,R2) or use --holdout-all")
     from pathlib import Path
 
+    from pipeline.stats.fingerprint import hash_in_background
+
+    hash_in_background([*inputs.data, inputs.regimes], out=args.out)  # meanwhile: imports
     from pipeline.analyses.validate import validate
     from pipeline.progress import Progress
     from pipeline.terminal import Terminal, escape
