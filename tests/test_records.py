@@ -127,3 +127,15 @@ def test_recursive_records_show_an_ellipsis_as_dataclass_does():
     r, o = RefNode(), Node()
     r.child, o.child = r, o
     assert repr(o) == repr(r).replace("RefNode", "Node")
+
+
+def test_records_cross_processes_as_dataclasses_do():
+    # the bootstrap's worker processes send records back pickled
+    import pickle
+
+    from pipeline.learner.evidence import RemovedPair
+
+    pair = RemovedPair(x="A", y="B", separating_set=("C",), pvalue=0.2, statistic=1.3,
+                       level=1, notes=(), regime=None)
+    back = pickle.loads(pickle.dumps(pair))
+    assert back == pair and hash(back) == hash(pair) and repr(back) == repr(pair)
