@@ -2,18 +2,21 @@
 
 from __future__ import annotations
 
+import io
 import json
 import math
 import shutil
 
 import pandas as pd
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 import pipeline.intake.read as intake_read
 import pipeline.intake.tables as intake_tables
 from pipeline.analyses.sweep import parse_alphas, sweep
 from pipeline.errors import InputError
-from pipeline.results.sweep import STABLE, SweepResult
+from pipeline.results.sweep import CSV_COLUMNS, STABLE, SweepResult
 from pipeline.simulation import simulate
 from pipeline.workflow import learn
 
@@ -130,3 +133,54 @@ def test_folder_without_a_learn_run(tmp_path, files):
     (out / "result.json").write_text(json.dumps(rec))
     with pytest.raises(InputError, match="fingerprint"):
         sweep(out, [0.01])
+
+
+_NAMES = st.sampled_from(["A", "B", "g,1", 'q"x', "Δ", "C 2"])
+
+
+@st.composite
+def sweeps(draw):
+    names = draw(st.lists(_NAMES, min_size=2, max_size=5, unique=True))
+    alphas = sorted(draw(st.lists(st.sampled_from([0.001, 0.01, 0.05, 0.2]), min_size=1,
+                                  max_size=3, unique=True)))
+    pairs = [(x, y) for i, x in enumerate(names) for y in names[i + 1:]]
+    states = []
+    for _ in alphas:
+        chosen = draw(st.lists(st.sampled_from(pairs), unique=True))
+        states.append({pair: (draw(st.sampled_from([1, -1, 0])),
+                              draw(st.sampled_from(["intervention", "meek-1", "none"])),
+                              draw(st.one_of(st.none(), st.floats(0, 1), st.just(1e-300))))
+                       for pair in chosen})
+    return SweepResult(alphas, names, {}, [], states, "run")
+
+
+@given(sweeps())
+def test_sweep_csv_is_the_table_as_pandas_writes_it(result):
+    # reference: pandas' CSV writer over the same rows (the file was written by pandas before)
+    reference = result.to_frame().to_csv(index=False, lineterminator="\n")
+    assert result.to_csv() == reference
+    back = pd.read_csv(io.StringIO(result.to_csv()), keep_default_na=False)
+    assert list(back.columns) == list(CSV_COLUMNS)
+    assert len(back) == len(result.alphas) * len(result.variables) * (len(result.variables)
+                                                                       - 1) // 2
+
+
+def test_sweep_imports_no_table_or_statistics_library(tmp_path, files):
+    # a process where pandas, scipy, pyarrow and networkx cannot be imported: a sweep
+    # whose tests are all in the store (a first sweep put them there) writes its files
+    import subprocess
+    import sys
+
+    data, regimes = files
+    out = tmp_path / "run"
+    learn(data, regimes, out=out, alpha=0.01)
+    first = sweep(out, [0.001, 0.05]).to_csv()
+    script = ("import sys\n"
+              "for name in ('scipy', 'pandas', 'pyarrow', 'networkx'):\n"
+              "    sys.modules[name] = None\n"
+              "from pipeline.cli import main\n"
+              "sys.exit(main(sys.argv[1:]))\n")
+    done = subprocess.run([sys.executable, "-c", script, "sweep", str(out), "--alpha",
+                           "0.001", "0.05"], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert (out / "sweep.csv").read_text() == first

@@ -16,16 +16,17 @@ from __future__ import annotations
 
 import html
 import io
+from collections.abc import Iterator
 from dataclasses import field
 from pathlib import Path
-from typing import Any
-
-import numpy as np
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from pipeline.errors import InputError
 from pipeline.records import record
 from pipeline.terminal import plain_text
+
+if TYPE_CHECKING:  # pandas is imported where a table is made
+    import pandas as pd
 
 __all__ = ["SweepResult", "FORMAT", "CSV_COLUMNS", "STABLE", "VARIES"]
 
@@ -81,63 +82,96 @@ class SweepResult:
             return f"adjacent at {len(seen)} of {m}"
         return STABLE if len(set(seen)) == 1 else VARIES
 
-    def edges(self) -> pd.DataFrame:
-        """The pairs adjacent at some alpha: x, y, one state column per alpha, verdict."""
+    def edge_rows(self) -> list[tuple[str, ...]]:
+        """The pairs adjacent at some alpha: ``(x, y, state at each alpha..., verdict)``."""
         rows = []
         for pair in self.pairs():
-            row = {"x": pair[0], "y": pair[1]}
-            for a, s in zip(self.alphas, self.states, strict=True):
-                st = s.get(pair)
-                row[f"{a:g}"] = _edge_text(pair, st[0]) if st is not None else ""
-            row["verdict"] = self.verdict(pair)
-            rows.append(row)
-        return pd.DataFrame(rows, columns=["x", "y"] + [f"{a:g}" for a in self.alphas]
-                            + ["verdict"])
+            states = [s.get(pair) for s in self.states]
+            rows.append((pair[0], pair[1],
+                         *(_edge_text(pair, st[0]) if st is not None else "" for st in states),
+                         self.verdict(pair)))
+        return rows
 
-    def to_frame(self) -> pd.DataFrame:
-        """``sweep.csv``: one row per pair of variables and alpha (`CSV_COLUMNS`).
+    def edges(self) -> pd.DataFrame:
+        """The pairs adjacent at some alpha: x, y, one state column per alpha, verdict."""
+        import pandas as pd
+
+        return pd.DataFrame(self.edge_rows(),
+                            columns=["x", "y"] + [f"{a:g}" for a in self.alphas] + ["verdict"])
+
+    def csv_rows(self) -> Iterator[tuple]:
+        """The rows of ``sweep.csv`` (`CSV_COLUMNS`): every pair of variables (the earlier
+        variable first) at each alpha in turn.
 
         ``orientation`` is directed, undirected or none (not adjacent); ``source`` and
         ``target`` give the direction of a directed edge (for an undirected one the
         earlier variable first); ``stable`` is true when the pair is in the same state
-        (absent, or present with the same orientation) at every alpha.
+        (absent, or present with the same orientation) at every alpha. ``p_adjacency`` is
+        None where the pair is not adjacent.
         """
         v = list(self.variables)
-        p = len(v)
-        ii, jj = np.triu_indices(p, 1)
-        xs, ys = np.array(v, dtype=object)[ii], np.array(v, dtype=object)[jj]
-        n = len(ii)
-        code = np.full((len(self.alphas), n), 2, dtype=np.int8)  # 2: not adjacent
-        rule = np.full((len(self.alphas), n), "", dtype=object)
-        padj = np.full((len(self.alphas), n), np.nan)
-        pos = {name: i for i, name in enumerate(v)}
-        flat = {}  # (i, j) -> flat index of the pair
-        for a, s in enumerate(self.states):
-            for (x, y), (st, r, pv) in s.items():
-                i, j = pos[x], pos[y]
-                k = flat.get((i, j))
-                if k is None:
-                    k = flat[(i, j)] = i * p - i * (i + 1) // 2 + (j - i - 1)
-                code[a, k], rule[a, k] = st, r
-                padj[a, k] = np.nan if pv is None else pv
-        stable = (code == code[:1]).all(axis=0) if len(self.alphas) else np.ones(n, bool)
-        frames = []
-        for a, alpha in enumerate(self.alphas):
-            c = code[a]
-            backward = c == _BACKWARD
-            frames.append(pd.DataFrame({
-                "x": xs, "y": ys, "alpha": alpha, "adjacent": c != 2,
-                "orientation": np.where(c == 2, "none",
-                                        np.where(c == _UNDIRECTED, "undirected", "directed")),
-                "source": np.where(c == 2, "", np.where(backward, ys, xs)),
-                "target": np.where(c == 2, "", np.where(backward, xs, ys)),
-                "rule": rule[a], "p_adjacency": padj[a], "stable": stable}))
-        if not frames:
-            return pd.DataFrame(columns=list(CSV_COLUMNS))
-        return pd.concat(frames, ignore_index=True)[list(CSV_COLUMNS)]
+        changing = {pair for pair in self.pairs()
+                    if len({None if (t := s.get(pair)) is None else t[0]
+                            for s in self.states}) > 1}
+        for alpha, states in zip(self.alphas, self.states, strict=True):
+            for i, x in enumerate(v):
+                for y in v[i + 1:]:
+                    stable = (x, y) not in changing
+                    st = states.get((x, y))
+                    if st is None:
+                        yield (x, y, alpha, False, "none", "", "", "", None, stable)
+                        continue
+                    code, rule, pv = st
+                    source, target = (y, x) if code == _BACKWARD else (x, y)
+                    yield (x, y, alpha, True,
+                           "undirected" if code == _UNDIRECTED else "directed",
+                           source, target, rule, pv, stable)
+
+    def to_frame(self) -> pd.DataFrame:
+        """``sweep.csv`` as a table: one row per pair of variables and alpha (`csv_rows`)."""
+        import pandas as pd
+
+        frame = pd.DataFrame(list(self.csv_rows()), columns=list(CSV_COLUMNS))
+        return frame.astype({"p_adjacency": float})
 
     def to_csv(self) -> str:
-        return self.to_frame().to_csv(index=False, lineterminator="\n")
+        """``sweep.csv``: the rows of `csv_rows` as the csv module writes them (floats in
+        their shortest exact form, None empty, a name quoted where it needs it).
+
+        Rows are formatted directly rather than cell by cell through the csv writer: a
+        sweep of thousands of variables has millions of rows, most of them a pair that is
+        not adjacent.
+        """
+        names = [_csv_field(v) for v in self.variables]
+        rules: dict[str, str] = {}
+        changing = {pair for pair in self.pairs()
+                    if len({None if (t := s.get(pair)) is None else t[0]
+                            for s in self.states}) > 1}
+        at = {v: i for i, v in enumerate(self.variables)}
+        changing_index = {(at[x], at[y]) for x, y in changing}
+        out = [",".join(CSV_COLUMNS) + "\n"]
+        p = len(names)
+        for alpha, states in zip(self.alphas, self.states, strict=True):
+            a = _csv_field(alpha)
+            adjacent = {(at[x], at[y]): st for (x, y), st in states.items()}
+            for i in range(p):
+                x = names[i]
+                for j in range(i + 1, p):
+                    y = names[j]
+                    stable = "False" if (i, j) in changing_index else "True"
+                    st = adjacent.get((i, j))
+                    if st is None:
+                        out.append(f"{x},{y},{a},False,none,,,,,{stable}\n")
+                        continue
+                    code, rule, pv = st
+                    source, target = (y, x) if code == _BACKWARD else (x, y)
+                    r = rules.get(rule)
+                    if r is None:
+                        r = rules[rule] = _csv_field(rule)
+                    out.append(f"{x},{y},{a},True,"
+                               f"{'undirected' if code == _UNDIRECTED else 'directed'},"
+                               f"{source},{target},{r},{_csv_field(pv)},{stable}\n")
+        return "".join(out)
 
     def to_dict(self) -> dict[str, Any]:
         """``sweep.json``: alphas, settings, totals and every pair adjacent at some alpha."""
@@ -212,16 +246,15 @@ class SweepResult:
         console.print(f"pairs adjacent at some alpha: {sum(c.values())}; stable across the "
                       f"range: {c[STABLE]}; orientation varies: {c[VARIES]}; adjacent at "
                       f"some alphas only: {c['partial']}")
-        frame = self.edges()
-        frame = frame[frame["verdict"] != STABLE]
-        if len(frame):
-            shown = frame if max_rows is None else frame.head(max_rows)
+        rows = [r for r in self.edge_rows() if r[-1] != STABLE]
+        if rows:
+            shown = rows if max_rows is None else rows[:max_rows]
             t = Table(title="Pairs not stable across the range"
-                      + (f" (first {max_rows} of {len(frame)}; all in sweep.csv)"
-                         if len(shown) < len(frame) else ""))
-            for col in frame.columns:
+                      + (f" (first {max_rows} of {len(rows)}; all in sweep.csv)"
+                         if len(shown) < len(rows) else ""))
+            for col in ["x", "y", *(f"{a:g}" for a in self.alphas), "verdict"]:
                 t.add_column(col)
-            for row in shown.itertuples(index=False):
+            for row in shown:
                 t.add_row(*(escape(str(v)) for v in row))
             console.print(t)
 
@@ -273,6 +306,17 @@ def _edge_text(pair: tuple[str, str], state: int) -> str:
     x, y = pair
     return {_FORWARD: f"{x} -> {y}", _BACKWARD: f"{y} -> {x}", _UNDIRECTED: f"{x} -- {y}"}[
         state]
+
+
+def _csv_field(value: Any) -> str:
+    """One cell as the csv module writes it (None and NaN empty, floats shortest exact)."""
+    from pipeline.results.tables import csv_text
+
+    if value is None or (isinstance(value, float) and value != value):
+        return ""
+    if isinstance(value, float):
+        return float.__repr__(float(value))
+    return csv_text([str(value)], []).rstrip("\n")
 
 
 def _count(v: Any) -> str:
