@@ -10,7 +10,8 @@ start-up and imports included, median of several runs:
    the same folder at a new alpha (statistics and earlier tests from ``tests.sqlite``;
    goal: at least 5 times faster than the cold run);
 3. the same rerun on a terminal, through util-linux ``script`` when it is installed (progress
-   bars and colours are on; ``script`` itself adds a few milliseconds).
+   bars and colours are on; ``script`` itself adds a few milliseconds);
+4. ``orienteer sweep`` of that folder at four alphas (its tests stored by a first sweep).
 
 The package's bytecode is compiled first (``compileall``), as installing a package does,
 so that no timed process compiles the package's sources; ``--no-bytecode`` times a checkout
@@ -116,6 +117,11 @@ def main(argv: list[str] | None = None) -> int:
         rows.append((f"cold `learn`, {len(sim.data):,} rows x 30 variables ({mb:.0f} MB)", c,
                      ""))
         rows.append(("rerun into the same `--out` at a new alpha", r, f"{c / r:.1f}x faster"))
+        levels = ["--alpha", "0.001", "0.005", "0.01", "0.05"]
+        wall(["sweep", str(tmp / "out0"), *levels])  # stores the tests of the four levels
+        swept = statistics.median(wall(["sweep", str(tmp / "out0"), *levels])
+                                  for _ in range(args.runs))
+        rows.append(("`sweep` of that folder at 4 alphas (tests in the store)", swept, ""))
         if terminal:
             t = statistics.median(terminal)
             alone = statistics.median(
