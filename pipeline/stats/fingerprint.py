@@ -130,6 +130,18 @@ def file_key(path: Path) -> FileKey:
                    int(st.st_ctime_ns), int(st.st_dev), int(st.st_ino))
 
 
+def _readable(paths: Sequence[str | Path]) -> list[tuple[Path, FileKey]]:
+    """``(path, key)`` of each of `paths` that can be read (the others are left to
+    `fingerprint_inputs`, which reports them)."""
+    out = []
+    for p in paths:
+        try:
+            out.append((Path(p), file_key(Path(p))))
+        except OSError:
+            continue
+    return out
+
+
 #: Digests being computed by `hash_in_background`, by file key: set when in FILE_HASHES.
 _PENDING: dict[FileKey, threading.Event] = {}
 
@@ -145,14 +157,10 @@ def hash_in_background(paths: Sequence[str | Path], out: str | Path | None = Non
     `fingerprint_inputs`, which reports it.
     """
     jobs = []
-    for p in paths:
-        try:
-            key = file_key(Path(p))
-        except OSError:
-            continue
+    for path, key in _readable(paths):
         if key not in _PENDING and key not in FILE_HASHES:
             _PENDING[key] = done = threading.Event()
-            jobs.append((Path(p), key, done))
+            jobs.append((path, key, done))
 
     def run() -> None:
         try:
@@ -235,11 +243,7 @@ def digest_records(paths: Sequence[str | Path]) -> list[tuple]:
     Files whose digest came from a record, or cannot be read, give no row.
     """
     rows = []
-    for p in paths:
-        try:
-            key = file_key(Path(p))
-        except OSError:
-            continue
+    for _, key in _readable(paths):
         started = _STARTED.get(key)
         if started is not None and max(key.mtime_ns, key.ctime_ns) <= started - RACY_NS:
             rows.append((key.path, *_stat_fields(key), FILE_HASHES[key], started))
